@@ -46,6 +46,9 @@ type Store interface {
 	// Passes returns every pass of a campaign with its latest label,
 	// ordered by event then pass ID.
 	Passes(ctx context.Context, campaignID int64) ([]scan.Pass, error)
+	// ScannerPasses returns one scanner's passes in the order they were
+	// assigned (for "back to the previous event" and progress).
+	ScannerPasses(ctx context.Context, campaignID int64, scanner string) ([]scan.Pass, error)
 	// SaveRevision appends a revision to a pass owned by scanner and moves
 	// the pass to the revision's state; it returns the stored revision.
 	SaveRevision(ctx context.Context, passID int64, scanner string, rev scan.Revision) (scan.Revision, error)
@@ -60,6 +63,12 @@ type Store interface {
 	// ("" = any method, adjudication first).
 	SetConsensus(ctx context.Context, c scan.Consensus) error
 	Consensus(ctx context.Context, campaignID int64, method string) ([]scan.Consensus, error)
+
+	// SaveResume keeps an opaque per-scanner state (the event and view the
+	// scanner was on) so that a new session resumes exactly there; Resume
+	// returns it, or ErrNotFound.
+	SaveResume(ctx context.Context, campaignID int64, scanner string, state []byte) error
+	Resume(ctx context.Context, campaignID int64, scanner string) ([]byte, error)
 
 	// Close releases the database.
 	Close() error
