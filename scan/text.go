@@ -59,7 +59,7 @@ func isPlain(s string) bool {
 func isBidiControl(r rune) bool {
 	switch {
 	case r >= 0x202a && r <= 0x202e, // LRE, RLE, PDF, LRO, RLO
-		r >= 0x2066 && r <= 0x2069, // LRI, RLI, FSI, PDI
+		r >= 0x2066 && r <= 0x2069,            // LRI, RLI, FSI, PDI
 		r == 0x200e, r == 0x200f, r == 0x061c: // LRM, RLM, ALM
 		return true
 	}
