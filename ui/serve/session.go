@@ -290,7 +290,7 @@ func lookupEnv(env []string, key string) string {
 // environ makes the client's environment a termenv.Environ.
 type environ []string
 
-func (e environ) Environ() []string      { return e }
+func (e environ) Environ() []string        { return e }
 func (e environ) Getenv(key string) string { return lookupEnv(e, key) }
 
 // profileOf maps a colour tier to lipgloss's colour profile, so that the
