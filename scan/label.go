@@ -84,6 +84,8 @@ type Campaign struct {
 	Seed         int64
 	Schema       Schema
 	Instructions string // Markdown, may be empty
+	// Scanners is the roster: when not empty, only these names may join.
+	Scanners []string
 	Created      time.Time
 }
 

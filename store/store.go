@@ -21,6 +21,9 @@ var (
 	ErrConflict = errors.New("conflict")
 	// ErrTooNew means the database was written by a newer tpcscan.
 	ErrTooNew = errors.New("database was written by a newer tpcscan")
+	// ErrUnknownScanner means the campaign has a roster and the scanner is
+	// not on it.
+	ErrUnknownScanner = errors.New("scanner is not on the campaign's roster")
 )
 
 // Store is a campaign database. Every method is one transaction; all are
