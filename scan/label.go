@@ -86,7 +86,7 @@ type Campaign struct {
 	Instructions string // Markdown, may be empty
 	// Scanners is the roster: when not empty, only these names may join.
 	Scanners []string
-	Created      time.Time
+	Created  time.Time
 }
 
 // Selection is an automated algorithm's output for one event.
