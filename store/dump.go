@@ -58,7 +58,9 @@ type TableSum struct {
 	Sum   string // hex SHA-256 over the sorted canonical rows
 }
 
-func (t TableSum) String() string { return fmt.Sprintf("%s: %d rows, sha256 %.16s", t.Table, t.Rows, t.Sum) }
+func (t TableSum) String() string {
+	return fmt.Sprintf("%s: %d rows, sha256 %.16s", t.Table, t.Rows, t.Sum)
+}
 
 // Checksums returns one TableSum per table of the dump: campaign, events,
 // passes, revisions, consensus, resume. Rows are written canonically
