@@ -91,16 +91,17 @@ func parseManifest(r io.Reader, name string, loadDetector func(rel string) (*det
 	for i := range m.Events {
 		e := &m.Events[i]
 		if j, dup := seen[e.ID]; dup && e.ID != "" {
-			errs = append(errs, fmt.Errorf("events %d and %d: duplicate event id %q", j+1, i+1, e.ID))
+			errs = append(errs, &Error{Event: e.ID, File: ManifestName,
+				Err: fmt.Errorf("duplicate event id: [[events]] number %d and %d", j+1, i+1)})
 			continue
 		}
 		seen[e.ID] = i
-		if err := checkEntry(e, det); err != nil {
-			errs = append(errs, err)
+		for _, err := range checkEntry(e, det) {
+			errs = append(errs, &Error{Event: e.ID, File: ManifestName, Err: err})
 		}
 	}
 	if len(errs) > 0 {
-		return nil, nil, fmt.Errorf("read %s: %w", name, errors.Join(errs...))
+		return nil, nil, &ManifestError{Name: name, Problems: errs}
 	}
 	return det, m.Events, nil
 }
@@ -170,11 +171,31 @@ func validID(id string) bool {
 	return true
 }
 
+// ManifestError lists every problem found in a manifest; per-event
+// problems are *Error values.
+type ManifestError struct {
+	Name     string // the manifest's path
+	Problems []error
+}
+
+func (e *ManifestError) Error() string {
+	var b strings.Builder
+	for i, p := range e.Problems {
+		if i > 0 {
+			b.WriteByte('\n')
+		}
+		fmt.Fprintf(&b, "read %s: %v", e.Name, p)
+	}
+	return b.String()
+}
+
+func (e *ManifestError) Unwrap() []error { return e.Problems }
+
 // checkEntry checks one event's entry against the detector without
 // touching its files.
-func checkEntry(e *eventEntry, det *detector.Detector) error {
+func checkEntry(e *eventEntry, det *detector.Detector) []error {
 	if !validID(e.ID) {
-		return fmt.Errorf("event id %q: want 1–128 letters, digits, '.', '_', '-' or ':', not starting with '.'", e.ID)
+		return []error{fmt.Errorf("event id %q: want 1–128 letters, digits, '.', '_', '-' or ':', not starting with '.'", e.ID)}
 	}
 	var errs []error
 	add := func(format string, args ...any) { errs = append(errs, fmt.Errorf(format, args...)) }
@@ -188,15 +209,13 @@ func checkEntry(e *eventEntry, det *detector.Detector) error {
 		add("give exactly one of planes, npz or hits (found %d)", sources)
 	}
 	if len(e.Planes) > 0 {
-		if err := checkRoles("planes", e.Planes, det, true); err != nil {
-			errs = append(errs, err)
-		}
+		errs = append(errs, checkRoles("planes", e.Planes, det, true)...)
 	}
 	if len(e.PixelTruth) > 0 {
 		if len(e.Planes) == 0 {
 			add("pixel_truth goes with planes (an npz holds its truth arrays itself)")
-		} else if err := checkRoles("pixel_truth", e.PixelTruth, det, false); err != nil {
-			errs = append(errs, err)
+		} else {
+			errs = append(errs, checkRoles("pixel_truth", e.PixelTruth, det, false)...)
 		}
 	}
 	for _, offs := range []struct {
@@ -219,15 +238,12 @@ func checkEntry(e *eventEntry, det *detector.Detector) error {
 			add("%s: %v", p, err)
 		}
 	}
-	if len(errs) > 0 {
-		return fmt.Errorf("event %s: %w", e.ID, errors.Join(errs...))
-	}
-	return nil
+	return errs
 }
 
 // checkRoles checks a per-plane map's keys: known roles, and all of them if
 // complete is set.
-func checkRoles(key string, m map[string]string, det *detector.Detector, complete bool) error {
+func checkRoles(key string, m map[string]string, det *detector.Detector, complete bool) []error {
 	var errs []error
 	for _, role := range sortedKeys(m) {
 		if det.PlaneIndex(detector.Role(role)) < 0 {
@@ -241,7 +257,7 @@ func checkRoles(key string, m map[string]string, det *detector.Detector, complet
 			}
 		}
 	}
-	return errors.Join(errs...)
+	return errs
 }
 
 // paths lists every file the entry names, in a stable order.
