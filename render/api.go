@@ -74,4 +74,3 @@ type Canvas struct {
 	W, H  int
 	Cells []Cell
 }
-
