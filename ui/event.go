@@ -1,0 +1,75 @@
+package ui
+
+import (
+	"fmt"
+	"math"
+
+	"github.com/tpcscan/tpcscan/render"
+	"github.com/tpcscan/tpcscan/scan"
+)
+
+// Source is where the station gets its events: a dataset's event IDs in
+// order and a loader. *dataset.Dataset is adapted by DatasetSource.
+type Source interface {
+	EventIDs() []string
+	Load(id string) (*scan.Event, error)
+}
+
+// prepared is an event ready to draw: its pyramids (built once) and each
+// plane's automatic charge range.
+type prepared struct {
+	ev    *scan.Event
+	pyr   []*render.Pyramid
+	rng   []render.Range
+	tick0 float64 // first detector tick any plane covers
+	tick1 float64 // one past the last
+}
+
+// Charge percentiles for the automatic colour range (common practice:
+// a median floor keeps noise dark, a high percentile keeps tracks from
+// saturating).
+const autoLoPct, autoHiPct = 50, 99.5
+
+// prepare builds the pyramids of an event. It is pure CPU work and runs
+// inside a tea.Cmd.
+func prepare(ev *scan.Event) (*prepared, error) {
+	if err := ev.Validate(); err != nil {
+		return nil, err
+	}
+	p := &prepared{ev: ev, tick0: math.Inf(1), tick1: math.Inf(-1)}
+	for _, img := range ev.Planes {
+		p.pyr = append(p.pyr, render.NewPyramid(img))
+		p.rng = append(p.rng, autoRange(img))
+		p.tick0 = math.Min(p.tick0, float64(img.Tick0))
+		p.tick1 = math.Max(p.tick1, float64(img.Tick0+img.Ticks))
+	}
+	if p.tick1 <= p.tick0 {
+		p.tick0, p.tick1 = 0, float64(ev.Detector.ReadoutTicks)
+	}
+	return p, nil
+}
+
+// autoRange is render.AutoRange with a usable fallback for empty planes.
+func autoRange(img *scan.Image) render.Range {
+	if img.Wires == 0 || img.Ticks == 0 {
+		return render.Range{Lo: 0, Hi: 1}
+	}
+	r := render.AutoRange(img, autoLoPct, autoHiPct)
+	if !(r.Hi > r.Lo) {
+		r.Hi = r.Lo + 1
+	}
+	return r
+}
+
+// loadEvent loads and prepares one event.
+func loadEvent(src Source, id string) (*prepared, error) {
+	ev, err := src.Load(id)
+	if err != nil {
+		return nil, fmt.Errorf("load event %s: %w", id, err)
+	}
+	p, err := prepare(ev)
+	if err != nil {
+		return nil, fmt.Errorf("load event %s: %w", id, err)
+	}
+	return p, nil
+}
