@@ -20,10 +20,19 @@ import (
 // event ID, scanner, round, revision sequence).
 type CampaignDump struct {
 	Campaign  scan.Campaign
-	Events    []scan.CampaignEvent // in campaign order
-	Passes    []PassDump           // assigned passes, and extra passes not yet handed out (Scanner "")
-	Consensus []scan.Consensus     // every stored consensus label, oldest first
+	Events    []EventDump      // in campaign order
+	Passes    []PassDump       // every pass handed out
+	Consensus []scan.Consensus // every stored consensus label, oldest first
 	Resume    []ResumeState
+}
+
+// EventDump is an event with its assignment counters. How many passes were
+// handed out is not kept: it is the number of the event's passes.
+type EventDump struct {
+	scan.CampaignEvent
+	Needed        int // passes the event wants: K plus extra and replacement passes
+	ExtraRound    int // round number of passes beyond K (1 until an extra pass is added)
+	AdaptiveAdded int // extra passes added by the adaptive rule
 }
 
 // PassDump is a pass with all its revisions, oldest first.
@@ -69,10 +78,13 @@ func (t TableSum) String() string {
 // campaign give the same sums whatever IDs and row order they use.
 func (d CampaignDump) Checksums() ([]TableSum, error) {
 	c := d.Campaign
-	camp := []any{c.Name, c.Dataset, c.Mode, c.PerEvent, c.Blind, c.Adaptive, c.Seed, c.Schema, c.Instructions, stamp(c.Created)}
+	if len(c.Scanners) == 0 {
+		c.Scanners = nil // no roster, however a backend keeps it
+	}
+	camp := []any{c.Name, c.Dataset, c.Mode, c.PerEvent, c.Blind, c.Adaptive, c.Seed, c.Schema, c.Instructions, c.Scanners, stamp(c.Created)}
 	var events, passes, revs, cons, res [][]any
 	for i, e := range d.Events {
-		events = append(events, []any{i, e.EventID, e.Selection})
+		events = append(events, []any{i, e.EventID, e.Selection, e.Needed, e.ExtraRound, e.AdaptiveAdded})
 	}
 	for _, p := range d.Passes {
 		q := p.Pass

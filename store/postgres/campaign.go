@@ -2,48 +2,40 @@ package postgres
 
 import (
 	"context"
-	"encoding/binary"
 	"encoding/json"
 	"errors"
 	"fmt"
-	"hash/fnv"
 	"time"
 
 	"github.com/jackc/pgx/v5"
 
 	"github.com/tpcscan/tpcscan/scan"
+	"github.com/tpcscan/tpcscan/scan/campaign"
 	"github.com/tpcscan/tpcscan/store"
 )
 
-const campaignColumns = `id, name, dataset, mode, per_event, blind, adaptive, seed, label_schema, instructions, created`
+const campaignColumns = `id, name, dataset, mode, per_event, blind, adaptive, seed, schema_json, instructions, scanners, n_events, created`
 
-// CreateCampaign stores the campaign, its events and K open slots per event.
+// CreateCampaign stores a campaign and its events, shuffled on the ring by
+// the campaign's seed, and returns its ID.
 func (s *Store) CreateCampaign(ctx context.Context, c scan.Campaign, events []scan.CampaignEvent) (int64, error) {
-	if c.Name == "" {
-		return 0, errors.New("create campaign: empty name")
-	}
-	if c.PerEvent < 1 {
-		return 0, fmt.Errorf("create campaign %q: %d scanners per event, need at least 1", c.Name, c.PerEvent)
+	if err := checkCampaign(c, events); err != nil {
+		return 0, fmt.Errorf("create campaign %q: %w", c.Name, err)
 	}
 	if c.Created.IsZero() {
 		c.Created = time.Now()
 	}
+	evs := make([]store.EventDump, len(events))
+	for i, e := range events {
+		evs[i] = store.EventDump{CampaignEvent: e, Needed: c.PerEvent, ExtraRound: 1}
+	}
 	var id int64
 	err := s.tx(ctx, func(tx pgx.Tx) error {
 		var err error
-		if id, err = insertCampaign(ctx, tx, c); err != nil {
+		if id, err = insertCampaign(ctx, tx, c, len(events)); err != nil {
 			return err
 		}
-		if err := insertEvents(ctx, tx, id, c.Seed, events); err != nil {
-			return err
-		}
-		_, err = tx.Exec(ctx, `INSERT INTO passes (campaign_id, event_id, round, pick, state)
-			SELECT e.campaign_id, e.event_id, 1, e.pick, 'assigned'
-			FROM events e CROSS JOIN generate_series(1, $2) WHERE e.campaign_id = $1`, id, c.PerEvent)
-		if err != nil {
-			return fmt.Errorf("open slots: %w", err)
-		}
-		return nil
+		return insertEvents(ctx, tx, id, c.Seed, evs)
 	})
 	if err != nil {
 		return 0, fmt.Errorf("create campaign %q: %w", c.Name, err)
@@ -51,51 +43,90 @@ func (s *Store) CreateCampaign(ctx context.Context, c scan.Campaign, events []sc
 	return id, nil
 }
 
-func insertCampaign(ctx context.Context, tx pgx.Tx, c scan.Campaign) (int64, error) {
+// checkCampaign refuses a campaign no scanner could work on, with the same
+// rules as the SQLite store.
+func checkCampaign(c scan.Campaign, events []scan.CampaignEvent) error {
+	var errs []error
+	if c.Name == "" || scan.CleanText(c.Name) != c.Name {
+		errs = append(errs, errors.New("a campaign needs a name without control characters"))
+	}
+	if c.Mode != scan.ModeLabel && c.Mode != scan.ModeVerify {
+		errs = append(errs, fmt.Errorf("mode must be %s or %s, got %q", scan.ModeLabel, scan.ModeVerify, c.Mode))
+	}
+	if c.PerEvent < 1 {
+		errs = append(errs, fmt.Errorf("scanners per event must be 1 or more, got %d", c.PerEvent))
+	}
+	if err := c.Schema.Validate(); err != nil {
+		errs = append(errs, fmt.Errorf("schema: %w", err))
+	}
+	if len(events) == 0 {
+		errs = append(errs, errors.New("no events"))
+	}
+	seen := make(map[string]bool, len(events))
+	for _, e := range events {
+		if e.EventID == "" {
+			errs = append(errs, errors.New("an event has an empty ID"))
+		} else if seen[e.EventID] {
+			errs = append(errs, fmt.Errorf("event %s appears twice", e.EventID))
+		}
+		seen[e.EventID] = true
+		if c.Mode == scan.ModeVerify && e.Selection == nil {
+			errs = append(errs, fmt.Errorf("event %s: a verify campaign needs the selection's output for every event", e.EventID))
+		}
+		if len(errs) > 10 {
+			break
+		}
+	}
+	for _, n := range c.Scanners {
+		if n == "" || len(n) > 64 || scan.CleanText(n) != n {
+			errs = append(errs, fmt.Errorf("scanner name %q: use 1 to 64 printable characters", n))
+		}
+	}
+	return errors.Join(errs...)
+}
+
+func insertCampaign(ctx context.Context, tx pgx.Tx, c scan.Campaign, nEvents int) (int64, error) {
 	schema, err := json.Marshal(c.Schema)
 	if err != nil {
 		return 0, fmt.Errorf("encode schema: %w", err)
 	}
+	roster := c.Scanners
+	if roster == nil {
+		roster = []string{}
+	}
+	rosterJSON, err := json.Marshal(roster)
+	if err != nil {
+		return 0, fmt.Errorf("encode roster: %w", err)
+	}
 	var id int64
 	err = tx.QueryRow(ctx, `INSERT INTO campaigns (name, dataset, mode, per_event, blind, adaptive, seed,
-		label_schema, schema_version, instructions, created)
-		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11) RETURNING id`,
+		schema_json, schema_version, instructions, scanners, n_events, created)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9, $10, $11, $12, $13) RETURNING id`,
 		c.Name, c.Dataset, c.Mode, c.PerEvent, c.Blind, c.Adaptive, c.Seed,
-		schema, c.Schema.Version, c.Instructions, c.Created).Scan(&id)
+		schema, c.Schema.Version, c.Instructions, rosterJSON, nEvents, c.Created).Scan(&id)
 	if pgCode(err) == codeUnique {
-		return 0, fmt.Errorf("a campaign of that name exists: %w", store.ErrConflict)
+		return 0, fmt.Errorf("a campaign named %q exists already: %w", c.Name, store.ErrConflict)
 	}
 	return id, err
 }
 
 // insertEvents copies the events in with the COPY protocol: a campaign may
 // hold millions.
-func insertEvents(ctx context.Context, tx pgx.Tx, campaignID, seed int64, events []scan.CampaignEvent) error {
-	seen := make(map[string]bool, len(events))
+func insertEvents(ctx context.Context, tx pgx.Tx, campaignID, seed int64, events []store.EventDump) error {
+	pos := campaign.Positions(seed, len(events))
 	rows := make([][]any, len(events))
 	for i, e := range events {
-		if e.EventID == "" {
-			return fmt.Errorf("event %d: empty event ID", i+1)
-		}
-		if seen[e.EventID] {
-			return fmt.Errorf("event %q listed twice: %w", e.EventID, store.ErrConflict)
-		}
-		seen[e.EventID] = true
-		row := []any{campaignID, e.EventID, i, pick(seed, 'e', e.EventID), nil, nil, nil, nil}
-		if sel := e.Selection; sel != nil {
-			row[4], row[5], row[6] = sel.Selected, sel.Class, sel.Score
-			if sel.Box != nil {
-				b, err := json.Marshal(sel.Box)
-				if err != nil {
-					return fmt.Errorf("event %q: encode box: %w", e.EventID, err)
-				}
-				row[7] = b
+		var sel []byte
+		if e.Selection != nil {
+			var err error
+			if sel, err = json.Marshal(e.Selection); err != nil {
+				return fmt.Errorf("event %s: selection: %w", e.EventID, err)
 			}
 		}
-		rows[i] = row
+		rows[i] = []any{campaignID, e.EventID, i, pos[i], e.Needed, e.ExtraRound, e.AdaptiveAdded, sel}
 	}
 	_, err := tx.CopyFrom(ctx, pgx.Identifier{"events"},
-		[]string{"campaign_id", "event_id", "ord", "pick", "selected", "sel_class", "score", "box"},
+		[]string{"campaign_id", "event_id", "ord", "pos", "needed", "extra_round", "adaptive_added", "selection"},
 		pgx.CopyFromRows(rows))
 	if err != nil {
 		return fmt.Errorf("insert events: %w", err)
@@ -103,41 +134,28 @@ func insertEvents(ctx context.Context, tx pgx.Tx, campaignID, seed int64, events
 	return nil
 }
 
-// pick places a name in a campaign's shuffled order: a 63-bit FNV-1a hash
-// of the campaign seed, a kind byte and the name. Events sit at their pick;
-// each scanner starts at its own pick and walks upward, wrapping around.
-func pick(seed int64, kind byte, name string) int64 {
-	h := fnv.New64a()
-	var b [9]byte
-	binary.LittleEndian.PutUint64(b[:8], uint64(seed))
-	b[8] = kind
-	h.Write(b[:])
-	h.Write([]byte(name))
-	return int64(h.Sum64() >> 1)
-}
-
 // Campaign returns one campaign.
 func (s *Store) Campaign(ctx context.Context, id int64) (scan.Campaign, error) {
-	return s.campaignWhere(ctx, "id = $1", id)
+	return s.campaignWhere(ctx, "id = $1", id, fmt.Sprintf("campaign %d", id))
 }
 
 // CampaignByName looks a campaign up by its name.
 func (s *Store) CampaignByName(ctx context.Context, name string) (scan.Campaign, error) {
-	return s.campaignWhere(ctx, "name = $1", name)
+	return s.campaignWhere(ctx, "name = $1", name, fmt.Sprintf("campaign %q", name))
 }
 
-func (s *Store) campaignWhere(ctx context.Context, where string, arg any) (scan.Campaign, error) {
+func (s *Store) campaignWhere(ctx context.Context, where string, arg any, what string) (scan.Campaign, error) {
 	var c scan.Campaign
 	err := s.tx(ctx, func(tx pgx.Tx) error {
 		var err error
-		c, err = scanCampaign(tx.QueryRow(ctx, "SELECT "+campaignColumns+" FROM campaigns WHERE "+where, arg))
+		c, _, err = scanCampaign(tx.QueryRow(ctx, "SELECT "+campaignColumns+" FROM campaigns WHERE "+where, arg))
 		return err
 	})
 	if errors.Is(err, pgx.ErrNoRows) {
-		return c, fmt.Errorf("campaign %v: %w", arg, store.ErrNotFound)
+		return c, fmt.Errorf("%s: %w", what, store.ErrNotFound)
 	}
 	if err != nil {
-		return c, fmt.Errorf("read campaign %v: %w", arg, err)
+		return c, fmt.Errorf("read %s: %w", what, err)
 	}
 	return c, nil
 }
@@ -150,7 +168,10 @@ func (s *Store) Campaigns(ctx context.Context) ([]scan.Campaign, error) {
 		if err != nil {
 			return err
 		}
-		cs, err = pgx.CollectRows(rows, func(r pgx.CollectableRow) (scan.Campaign, error) { return scanCampaign(r) })
+		cs, err = pgx.CollectRows(rows, func(r pgx.CollectableRow) (scan.Campaign, error) {
+			c, _, err := scanCampaign(r)
+			return c, err
+		})
 		return err
 	})
 	if err != nil {
@@ -159,33 +180,36 @@ func (s *Store) Campaigns(ctx context.Context) ([]scan.Campaign, error) {
 	return cs, nil
 }
 
-func scanCampaign(r pgx.Row) (scan.Campaign, error) {
+// scanCampaign reads one campaigns row and its event count.
+func scanCampaign(r pgx.Row) (scan.Campaign, int, error) {
 	var c scan.Campaign
-	var schema []byte
+	var n int
+	var schema, roster []byte
 	err := r.Scan(&c.ID, &c.Name, &c.Dataset, &c.Mode, &c.PerEvent, &c.Blind, &c.Adaptive, &c.Seed,
-		&schema, &c.Instructions, &c.Created)
+		&schema, &c.Instructions, &roster, &n, &c.Created)
 	if err != nil {
-		return c, err
+		return c, 0, err
 	}
 	if err := json.Unmarshal(schema, &c.Schema); err != nil {
-		return c, fmt.Errorf("campaign %q: decode schema: %w", c.Name, err)
+		return c, 0, fmt.Errorf("campaign %q: stored schema: %w", c.Name, err)
 	}
-	return c, nil
+	if err := json.Unmarshal(roster, &c.Scanners); err != nil {
+		return c, 0, fmt.Errorf("campaign %q: stored roster: %w", c.Name, err)
+	}
+	if len(c.Scanners) == 0 {
+		c.Scanners = nil
+	}
+	return c, n, nil
 }
 
-// Events returns the campaign's events in campaign order.
+// Events returns the campaign's events in the order given at creation.
 func (s *Store) Events(ctx context.Context, campaignID int64) ([]scan.CampaignEvent, error) {
 	var evs []scan.CampaignEvent
 	err := s.tx(ctx, func(tx pgx.Tx) error {
-		if err := requireCampaign(ctx, tx, campaignID); err != nil {
-			return err
+		ds, err := readEvents(ctx, tx, campaignID)
+		for _, d := range ds {
+			evs = append(evs, d.CampaignEvent)
 		}
-		rows, err := tx.Query(ctx, `SELECT event_id, selected, sel_class, score, box
-			FROM events WHERE campaign_id = $1 ORDER BY ord`, campaignID)
-		if err != nil {
-			return err
-		}
-		evs, err = pgx.CollectRows(rows, scanEvent)
 		return err
 	})
 	if err != nil {
@@ -194,32 +218,29 @@ func (s *Store) Events(ctx context.Context, campaignID int64) ([]scan.CampaignEv
 	return evs, nil
 }
 
-func scanEvent(r pgx.CollectableRow) (scan.CampaignEvent, error) {
-	var e scan.CampaignEvent
-	var selected *bool
-	var class *string
-	var score *float64
-	var box []byte
-	if err := r.Scan(&e.EventID, &selected, &class, &score, &box); err != nil {
-		return e, err
+func readEvents(ctx context.Context, tx pgx.Tx, campaignID int64) ([]store.EventDump, error) {
+	if err := requireCampaign(ctx, tx, campaignID); err != nil {
+		return nil, err
 	}
-	if selected == nil {
-		return e, nil
+	rows, err := tx.Query(ctx, `SELECT event_id, selection, needed, extra_round, adaptive_added
+		FROM events WHERE campaign_id = $1 ORDER BY ord`, campaignID)
+	if err != nil {
+		return nil, err
 	}
-	e.Selection = &scan.Selection{EventID: e.EventID, Selected: *selected}
-	if class != nil {
-		e.Selection.Class = *class
-	}
-	if score != nil {
-		e.Selection.Score = *score
-	}
-	if box != nil {
-		e.Selection.Box = new(scan.Mark)
-		if err := json.Unmarshal(box, e.Selection.Box); err != nil {
-			return e, fmt.Errorf("event %q: decode selection box: %w", e.EventID, err)
+	return pgx.CollectRows(rows, func(r pgx.CollectableRow) (store.EventDump, error) {
+		var e store.EventDump
+		var sel []byte
+		if err := r.Scan(&e.EventID, &sel, &e.Needed, &e.ExtraRound, &e.AdaptiveAdded); err != nil {
+			return e, err
 		}
-	}
-	return e, nil
+		if sel != nil {
+			e.Selection = new(scan.Selection)
+			if err := json.Unmarshal(sel, e.Selection); err != nil {
+				return e, fmt.Errorf("event %s: stored selection: %w", e.EventID, err)
+			}
+		}
+		return e, nil
+	})
 }
 
 // requireCampaign returns ErrNotFound unless the campaign exists.

@@ -5,7 +5,6 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
-	"time"
 
 	"github.com/jackc/pgx/v5"
 
@@ -23,6 +22,9 @@ func (s *Store) SetConsensus(ctx context.Context, c scan.Consensus) error {
 		return fmt.Errorf("set consensus of event %q: encode label: %w", c.EventID, err)
 	}
 	err = s.tx(ctx, func(tx pgx.Tx) error {
+		if err := requireCampaign(ctx, tx, c.CampaignID); err != nil {
+			return err
+		}
 		_, err := tx.Exec(ctx, `INSERT INTO consensus (campaign_id, event_id, method, label, posterior, decided_by, at)
 			VALUES ($1, $2, $3, $4, $5, $6, coalesce($7, clock_timestamp()))`,
 			c.CampaignID, c.EventID, c.Method, label, c.Posterior, c.By, nullTime(c.At))
@@ -39,17 +41,19 @@ func (s *Store) SetConsensus(ctx context.Context, c scan.Consensus) error {
 
 // Consensus returns the latest label per event for a method, or for ""
 // the latest adjudication where there is one and else the latest of any
-// method; ordered by event ID.
+// method; in campaign order.
 func (s *Store) Consensus(ctx context.Context, campaignID int64, method string) ([]scan.Consensus, error) {
 	var cs []scan.Consensus
 	err := s.tx(ctx, func(tx pgx.Tx) error {
 		if err := requireCampaign(ctx, tx, campaignID); err != nil {
 			return err
 		}
-		rows, err := tx.Query(ctx, `SELECT DISTINCT ON (event_id)
-			campaign_id, event_id, method, label, posterior, decided_by, at
-			FROM consensus WHERE campaign_id = $1 AND ($2 = '' OR method = $2)
-			ORDER BY event_id, (method = 'adjudication') DESC, id DESC`, campaignID, method)
+		rows, err := tx.Query(ctx, `SELECT x.campaign_id, x.event_id, x.method, x.label, x.posterior, x.decided_by, x.at
+			FROM (SELECT DISTINCT ON (event_id) * FROM consensus
+				WHERE campaign_id = $1 AND ($2 = '' OR method = $2)
+				ORDER BY event_id, (method = 'adjudication') DESC, id DESC) x
+			JOIN events e ON e.campaign_id = x.campaign_id AND e.event_id = x.event_id
+			ORDER BY e.ord`, campaignID, method)
 		if err != nil {
 			return err
 		}
@@ -80,6 +84,9 @@ func (s *Store) SaveResume(ctx context.Context, campaignID int64, scanner string
 		state = []byte{}
 	}
 	err := s.tx(ctx, func(tx pgx.Tx) error {
+		if err := requireCampaign(ctx, tx, campaignID); err != nil {
+			return err
+		}
 		_, err := tx.Exec(ctx, `INSERT INTO resume (campaign_id, scanner, state, updated)
 			VALUES ($1, $2, $3, clock_timestamp())
 			ON CONFLICT (campaign_id, scanner) DO UPDATE SET state = excluded.state, updated = excluded.updated`,
@@ -109,12 +116,4 @@ func (s *Store) Resume(ctx context.Context, campaignID int64, scanner string) ([
 		return nil, fmt.Errorf("read resume state of %q: %w", scanner, err)
 	}
 	return state, nil
-}
-
-// nullTime maps the zero time to SQL NULL.
-func nullTime(t time.Time) *time.Time {
-	if t.IsZero() {
-		return nil
-	}
-	return &t
 }

@@ -12,29 +12,26 @@ import (
 	"github.com/tpcscan/tpcscan/store"
 )
 
-// Dump exports a whole campaign from one consistent snapshot.
+// Dump exports a whole campaign from one consistent snapshot, while
+// scanners go on saving.
 func (s *Store) Dump(ctx context.Context, campaignID int64) (store.CampaignDump, error) {
 	var d store.CampaignDump
-	err := s.snapshot(ctx, func(tx pgx.Tx) error {
+	ctx, cancel := context.WithTimeout(ctx, 10*opTimeout)
+	defer cancel()
+	opts := pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly}
+	err := pgx.BeginTxFunc(ctx, s.pool, opts, func(tx pgx.Tx) error {
 		var err error
-		if d.Campaign, err = scanCampaign(tx.QueryRow(ctx, "SELECT "+campaignColumns+" FROM campaigns WHERE id = $1", campaignID)); err != nil {
-			if errors.Is(err, pgx.ErrNoRows) {
-				return store.ErrNotFound
-			}
-			return err
+		d.Campaign, _, err = scanCampaign(tx.QueryRow(ctx, "SELECT "+campaignColumns+" FROM campaigns WHERE id = $1", campaignID))
+		if errors.Is(err, pgx.ErrNoRows) {
+			return store.ErrNotFound
 		}
-		rows, err := tx.Query(ctx, `SELECT event_id, selected, sel_class, score, box
-			FROM events WHERE campaign_id = $1 ORDER BY ord`, campaignID)
 		if err != nil {
 			return err
 		}
-		if d.Events, err = pgx.CollectRows(rows, scanEvent); err != nil {
+		if d.Events, err = readEvents(ctx, tx, campaignID); err != nil {
 			return err
 		}
-		// Open base slots are implied by K and not dumped; extra slots
-		// (AddPass) are.
-		rows, err = tx.Query(ctx, "SELECT "+passColumns+` FROM passes p
-			WHERE p.campaign_id = $1 AND (p.scanner IS NOT NULL OR p.added) ORDER BY p.id`, campaignID)
+		rows, err := tx.Query(ctx, passFrom+"WHERE p.campaign_id = $1 ORDER BY p.id", campaignID)
 		if err != nil {
 			return err
 		}
@@ -73,7 +70,7 @@ func (s *Store) Dump(ctx context.Context, campaignID int64) (store.CampaignDump,
 	return d, nil
 }
 
-// groupRevisions attaches revisions (ordered by pass) to their passes.
+// groupRevisions attaches revisions to their passes.
 func groupRevisions(passes []scan.Pass, revs []scan.Revision) []store.PassDump {
 	out := make([]store.PassDump, len(passes))
 	at := make(map[int64]int, len(passes))
@@ -89,23 +86,16 @@ func groupRevisions(passes []scan.Pass, revs []scan.Revision) []store.PassDump {
 	return out
 }
 
-// snapshot runs fn in a read-only REPEATABLE READ transaction: every query
-// sees the same moment, while scanners go on saving.
-func (s *Store) snapshot(ctx context.Context, fn func(pgx.Tx) error) error {
-	ctx, cancel := context.WithTimeout(ctx, 10*opTimeout)
-	defer cancel()
-	return pgx.BeginTxFunc(ctx, s.pool, pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly}, fn)
-}
-
 // Load imports a whole campaign in one transaction under new row IDs,
-// keeping every revision and time stamp, and opens the base slots still
-// due: K minus the event's round-1 passes already assigned.
+// keeping every revision, counter and time stamp.
 func (s *Store) Load(ctx context.Context, d store.CampaignDump) (int64, error) {
 	c := d.Campaign
 	var id int64
+	ctx, cancel := context.WithTimeout(ctx, 10*opTimeout)
+	defer cancel()
 	err := s.tx(ctx, func(tx pgx.Tx) error {
 		var err error
-		if id, err = insertCampaign(ctx, tx, c); err != nil {
+		if id, err = insertCampaign(ctx, tx, c, len(d.Events)); err != nil {
 			return err
 		}
 		if err := insertEvents(ctx, tx, id, c.Seed, d.Events); err != nil {
@@ -116,36 +106,31 @@ func (s *Store) Load(ctx context.Context, d store.CampaignDump) (int64, error) {
 				return err
 			}
 		}
-		_, err = tx.Exec(ctx, `INSERT INTO passes (campaign_id, event_id, round, pick, state)
-			SELECT e.campaign_id, e.event_id, 1, e.pick, 'assigned'
-			FROM events e CROSS JOIN LATERAL generate_series(1, $2 - (SELECT count(*) FROM passes p
-				WHERE p.campaign_id = e.campaign_id AND p.event_id = e.event_id
-				AND p.round = 1 AND p.scanner IS NOT NULL)::integer)
-			WHERE e.campaign_id = $1`, id, c.PerEvent)
+		_, err = tx.Exec(ctx, `UPDATE events e SET taken = n.count FROM
+			(SELECT event_id, count(*) FROM passes WHERE campaign_id = $1 GROUP BY event_id) n
+			WHERE e.campaign_id = $1 AND e.event_id = n.event_id`, id)
 		if err != nil {
-			return fmt.Errorf("open slots: %w", err)
+			return fmt.Errorf("count taken passes: %w", err)
 		}
+		b := &pgx.Batch{}
 		for _, x := range d.Consensus {
 			label, err := json.Marshal(x.Label)
 			if err != nil {
-				return fmt.Errorf("consensus of %q: encode label: %w", x.EventID, err)
+				return fmt.Errorf("consensus of %s: encode label: %w", x.EventID, err)
 			}
-			_, err = tx.Exec(ctx, `INSERT INTO consensus (campaign_id, event_id, method, label, posterior, decided_by, at)
+			b.Queue(`INSERT INTO consensus (campaign_id, event_id, method, label, posterior, decided_by, at)
 				VALUES ($1, $2, $3, $4, $5, $6, $7)`, id, x.EventID, x.Method, label, x.Posterior, x.By, x.At)
-			if err != nil {
-				return fmt.Errorf("consensus of %q: %w", x.EventID, err)
-			}
 		}
 		for _, r := range d.Resume {
 			state := r.State
 			if state == nil {
 				state = []byte{}
 			}
-			_, err := tx.Exec(ctx, `INSERT INTO resume (campaign_id, scanner, state, updated) VALUES ($1, $2, $3, $4)`,
+			b.Queue(`INSERT INTO resume (campaign_id, scanner, state, updated) VALUES ($1, $2, $3, $4)`,
 				id, r.Scanner, state, r.Updated)
-			if err != nil {
-				return fmt.Errorf("resume state of %q: %w", r.Scanner, err)
-			}
+		}
+		if err := tx.SendBatch(ctx, b).Close(); err != nil {
+			return fmt.Errorf("consensus and resume states: %w", err)
 		}
 		return nil
 	})
@@ -155,39 +140,36 @@ func (s *Store) Load(ctx context.Context, d store.CampaignDump) (int64, error) {
 	return id, nil
 }
 
+// loadPass inserts one pass and its revisions and points the pass at its
+// latest revision.
 func loadPass(ctx context.Context, tx pgx.Tx, campaignID int64, pd store.PassDump) error {
 	p := pd.Pass
-	label, err := json.Marshal(p.Label)
-	if err != nil {
-		return fmt.Errorf("pass of %q by %q: encode label: %w", p.EventID, p.Scanner, err)
-	}
-	var scanner *string
-	if p.Scanner != "" {
-		scanner = &p.Scanner
-	}
 	var id int64
-	err = tx.QueryRow(ctx, `INSERT INTO passes (campaign_id, event_id, scanner, round, added, pick, state,
-			assigned, updated, seconds, label, revisions)
-		SELECT $1, $2, $3, $4, $3 IS NULL, pick, $5, $6, $7, $8, $9, $10
-		FROM events WHERE campaign_id = $1 AND event_id = $2 RETURNING id`,
-		campaignID, p.EventID, scanner, p.Round, string(p.State), nullTime(p.Assigned), nullTime(p.Updated),
-		p.Seconds, label, p.Revisions).Scan(&id)
-	if errors.Is(err, pgx.ErrNoRows) {
-		return fmt.Errorf("pass %d names event %q, which the campaign lacks: %w", p.ID, p.EventID, store.ErrConflict)
+	err := tx.QueryRow(ctx, `INSERT INTO passes (campaign_id, event_id, scanner, round, state, assigned, updated, seconds, revisions)
+		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9) RETURNING id`,
+		campaignID, p.EventID, p.Scanner, p.Round, string(p.State), p.Assigned, p.Updated, p.Seconds, p.Revisions).Scan(&id)
+	if pgCode(err) == codeForeignKey {
+		return fmt.Errorf("pass %d names event %s, which the campaign lacks: %w", p.ID, p.EventID, store.ErrConflict)
 	}
 	if err != nil {
-		return fmt.Errorf("pass of %q by %q: %w", p.EventID, p.Scanner, err)
+		return fmt.Errorf("pass of %s by %q: %w", p.EventID, p.Scanner, err)
 	}
+	if len(pd.Revisions) == 0 {
+		return nil
+	}
+	b := &pgx.Batch{}
 	for _, r := range pd.Revisions {
 		label, err := json.Marshal(r.Label)
 		if err != nil {
 			return fmt.Errorf("revision %d of pass %d: encode label: %w", r.Seq, p.ID, err)
 		}
-		_, err = tx.Exec(ctx, `INSERT INTO revisions (pass_id, seq, state, label, seconds, at, schema_version)
+		b.Queue(`INSERT INTO revisions (pass_id, seq, state, label, seconds, at, schema_version)
 			VALUES ($1, $2, $3, $4, $5, $6, $7)`, id, r.Seq, string(r.State), label, r.Seconds, r.At, r.Schema)
-		if err != nil {
-			return fmt.Errorf("revision %d of pass %d: %w", r.Seq, p.ID, err)
-		}
+	}
+	b.Queue(`UPDATE passes SET latest_revision = (SELECT id FROM revisions WHERE pass_id = $1 ORDER BY seq DESC LIMIT 1)
+		WHERE id = $1`, id)
+	if err := tx.SendBatch(ctx, b).Close(); err != nil {
+		return fmt.Errorf("revisions of pass %d: %w", p.ID, err)
 	}
 	return nil
 }

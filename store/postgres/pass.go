@@ -5,36 +5,35 @@ import (
 	"encoding/json"
 	"errors"
 	"fmt"
+	"slices"
 	"time"
 
 	"github.com/jackc/pgx/v5"
 
 	"github.com/tpcscan/tpcscan/scan"
+	"github.com/tpcscan/tpcscan/scan/campaign"
 	"github.com/tpcscan/tpcscan/store"
 )
 
-const passColumns = `p.id, p.campaign_id, p.event_id, coalesce(p.scanner, ''), p.round, p.state,
-	p.assigned, p.updated, p.seconds, p.label, p.revisions`
+// passFrom selects passes with their latest label.
+const passFrom = `SELECT p.id, p.campaign_id, p.event_id, p.scanner, p.round, p.state,
+	p.assigned, p.updated, p.seconds, r.label, p.revisions
+	FROM passes p LEFT JOIN revisions r ON r.id = p.latest_revision `
 
 func scanPass(r pgx.Row) (scan.Pass, error) {
 	var p scan.Pass
 	var state string
-	var assigned, updated *time.Time
 	var label []byte
 	err := r.Scan(&p.ID, &p.CampaignID, &p.EventID, &p.Scanner, &p.Round, &state,
-		&assigned, &updated, &p.Seconds, &label, &p.Revisions)
+		&p.Assigned, &p.Updated, &p.Seconds, &label, &p.Revisions)
 	if err != nil {
 		return p, err
 	}
 	p.State = scan.PassState(state)
-	if assigned != nil {
-		p.Assigned = *assigned
-	}
-	if updated != nil {
-		p.Updated = *updated
-	}
-	if err := json.Unmarshal(label, &p.Label); err != nil {
-		return p, fmt.Errorf("pass %d: decode label: %w", p.ID, err)
+	if label != nil {
+		if err := json.Unmarshal(label, &p.Label); err != nil {
+			return p, fmt.Errorf("pass %d: stored label: %w", p.ID, err)
+		}
 	}
 	return p, nil
 }
@@ -43,51 +42,80 @@ func collectPasses(rows pgx.Rows) ([]scan.Pass, error) {
 	return pgx.CollectRows(rows, func(r pgx.CollectableRow) (scan.Pass, error) { return scanPass(r) })
 }
 
-// NextPass returns the scanner's open pass, or hands it the next open slot
-// in its shuffled order. Each scanner walks the campaign's ring of event
-// picks upward from where its last assignment was (at first, from its own
-// pick), wrapping around once. FOR UPDATE SKIP LOCKED lets concurrent
-// servers take different slots without waiting on each other; an advisory
-// lock per (campaign, scanner) keeps one scanner's two sessions from
-// taking two slots at once; the unique (campaign, event, scanner) key
-// makes a second pass of one event for one scanner impossible.
+// info is what NextPass and SaveRevision need of a campaign.
+type info struct {
+	seed     int64
+	perEvent int
+	adaptive bool
+	mode     string
+	schema   scan.Schema
+	nEvents  int
+	roster   []string
+}
+
+func readInfo(ctx context.Context, tx pgx.Tx, campaignID int64) (info, error) {
+	var ci info
+	var roster, schema []byte
+	err := tx.QueryRow(ctx, `SELECT seed, per_event, adaptive, mode, schema_json, n_events, scanners
+		FROM campaigns WHERE id = $1`, campaignID).Scan(&ci.seed, &ci.perEvent, &ci.adaptive, &ci.mode, &schema, &ci.nEvents, &roster)
+	if errors.Is(err, pgx.ErrNoRows) {
+		return ci, fmt.Errorf("campaign %d: %w", campaignID, store.ErrNotFound)
+	}
+	if err != nil {
+		return ci, err
+	}
+	if err := json.Unmarshal(roster, &ci.roster); err != nil {
+		return ci, fmt.Errorf("campaign %d: stored roster: %w", campaignID, err)
+	}
+	if err := json.Unmarshal(schema, &ci.schema); err != nil {
+		return ci, fmt.Errorf("campaign %d: stored schema: %w", campaignID, err)
+	}
+	return ci, nil
+}
+
+// NextPass returns the scanner's open pass, or hands out the next event on
+// the campaign's shuffled ring read from the scanner's offset: first
+// events waiting for an extra pass, then any that still need a scanner.
+//
+// Race-free across servers: the event row is taken with FOR UPDATE SKIP
+// LOCKED, so concurrent sessions pick different events without waiting on
+// each other, and its taken counter never passes needed; an advisory lock
+// per (campaign, scanner) keeps one scanner's two sessions from opening
+// two passes at once; the unique (campaign, event, scanner) key makes a
+// second pass of one event by one scanner impossible.
 func (s *Store) NextPass(ctx context.Context, campaignID int64, scanner string) (scan.Pass, error) {
-	if scanner == "" {
-		return scan.Pass{}, errors.New("next pass: empty scanner name")
+	if err := checkScanner(scanner); err != nil {
+		return scan.Pass{}, err
 	}
 	var p scan.Pass
 	err := s.tx(ctx, func(tx pgx.Tx) error {
-		var seed int64
-		err := tx.QueryRow(ctx, "SELECT seed FROM campaigns WHERE id = $1", campaignID).Scan(&seed)
-		if errors.Is(err, pgx.ErrNoRows) {
-			return fmt.Errorf("campaign %d: %w", campaignID, store.ErrNotFound)
-		}
+		ci, err := readInfo(ctx, tx, campaignID)
 		if err != nil {
 			return err
+		}
+		if len(ci.roster) > 0 && !slices.Contains(ci.roster, scanner) {
+			return fmt.Errorf("%q may not join (roster: %v): %w", scanner, ci.roster, store.ErrUnknownScanner)
 		}
 		if _, err := tx.Exec(ctx, "SELECT pg_advisory_xact_lock($1, hashtext($2))", int32(campaignID), scanner); err != nil {
 			return err
 		}
-		p, err = scanPass(tx.QueryRow(ctx, "SELECT "+passColumns+` FROM passes p
-			WHERE p.campaign_id = $1 AND p.scanner = $2 AND p.state IN ('assigned', 'draft')
-			ORDER BY p.assigned, p.id LIMIT 1`, campaignID, scanner))
-		if err == nil || !errors.Is(err, pgx.ErrNoRows) {
+		p, err = scanPass(tx.QueryRow(ctx, passFrom+`WHERE p.campaign_id = $1 AND p.scanner = $2
+			AND p.state IN ('assigned', 'draft') ORDER BY p.id LIMIT 1`, campaignID, scanner))
+		if !errors.Is(err, pgx.ErrNoRows) {
 			return err
 		}
-		start := pick(seed, 's', scanner)
-		err = tx.QueryRow(ctx, `SELECT pick FROM passes
-			WHERE campaign_id = $1 AND scanner = $2 ORDER BY assigned DESC, id DESC LIMIT 1`,
-			campaignID, scanner).Scan(&start)
-		if err != nil && !errors.Is(err, pgx.ErrNoRows) {
-			return err
-		}
-		slot, err := openSlot(ctx, tx, campaignID, scanner, start)
+		eventID, round, err := takeEvent(ctx, tx, campaignID, scanner, ci)
 		if err != nil {
 			return err
 		}
-		p, err = scanPass(tx.QueryRow(ctx, `UPDATE passes p
-			SET scanner = $2, assigned = clock_timestamp(), updated = clock_timestamp()
-			WHERE p.id = $1 RETURNING `+passColumns, slot, scanner))
+		var id int64
+		err = tx.QueryRow(ctx, `INSERT INTO passes (campaign_id, event_id, scanner, round, state, assigned, updated)
+			VALUES ($1, $2, $3, $4, 'assigned', clock_timestamp(), clock_timestamp()) RETURNING id`,
+			campaignID, eventID, scanner, round).Scan(&id)
+		if err != nil {
+			return err
+		}
+		p, err = scanPass(tx.QueryRow(ctx, passFrom+"WHERE p.id = $1", id))
 		return err
 	})
 	if err != nil {
@@ -96,25 +124,46 @@ func (s *Store) NextPass(ctx context.Context, campaignID int64, scanner string) 
 	return p, nil
 }
 
-// openSlot locks the first open slot at or after start (then before it)
-// whose event this scanner does not have yet.
-func openSlot(ctx context.Context, tx pgx.Tx, campaignID int64, scanner string, start int64) (int64, error) {
-	const q = `SELECT p.id FROM passes p
-		WHERE p.campaign_id = $1 AND p.scanner IS NULL AND p.pick %s $3
-		AND NOT EXISTS (SELECT 1 FROM passes o
-			WHERE o.campaign_id = $1 AND o.event_id = p.event_id AND o.scanner = $2)
-		ORDER BY p.pick, p.id LIMIT 1 FOR UPDATE OF p SKIP LOCKED`
-	for _, op := range []string{">=", "<"} {
-		var id int64
-		err := tx.QueryRow(ctx, fmt.Sprintf(q, op), campaignID, scanner, start).Scan(&id)
-		if err == nil {
-			return id, nil
+// takeEvent locks the next event for the scanner, counts the pass as
+// taken and returns the event and the round of the new pass.
+func takeEvent(ctx context.Context, tx pgx.Tx, campaignID int64, scanner string, ci info) (string, int, error) {
+	const q = `SELECT event_id, taken, extra_round FROM events e
+		WHERE e.campaign_id = $1 AND e.taken < e.needed AND %s
+		AND NOT EXISTS (SELECT 1 FROM passes p
+			WHERE p.campaign_id = $1 AND p.event_id = e.event_id AND p.scanner = $2)
+		ORDER BY e.pos LIMIT 1 FOR UPDATE SKIP LOCKED`
+	start := campaign.StartOffset(ci.seed, scanner, ci.nEvents)
+	// Extra-round events first, then the ring from the offset to its end,
+	// then from its start: each one seek on a partial index.
+	for _, where := range []string{"e.extra_round > 1 AND $3::integer IS NOT NULL", "e.pos >= $3", "e.pos < $3"} {
+		var id string
+		var taken, extraRound int
+		err := tx.QueryRow(ctx, fmt.Sprintf(q, where), campaignID, scanner, start).Scan(&id, &taken, &extraRound)
+		if errors.Is(err, pgx.ErrNoRows) {
+			continue
 		}
-		if !errors.Is(err, pgx.ErrNoRows) {
-			return 0, err
+		if err != nil {
+			return "", 0, err
 		}
+		if _, err := tx.Exec(ctx, "UPDATE events SET taken = taken + 1 WHERE campaign_id = $1 AND event_id = $2",
+			campaignID, id); err != nil {
+			return "", 0, err
+		}
+		round := 1
+		if taken >= ci.perEvent {
+			round = extraRound
+		}
+		return id, round, nil
 	}
-	return 0, store.ErrNoWork
+	return "", 0, store.ErrNoWork
+}
+
+// checkScanner refuses names that could not be shown or typed.
+func checkScanner(name string) error {
+	if name == "" || len(name) > 64 || scan.CleanText(name) != name {
+		return fmt.Errorf("scanner name %q: use 1 to 64 printable characters", name)
+	}
+	return nil
 }
 
 // Pass returns one pass with its latest label.
@@ -122,7 +171,7 @@ func (s *Store) Pass(ctx context.Context, passID int64) (scan.Pass, error) {
 	var p scan.Pass
 	err := s.tx(ctx, func(tx pgx.Tx) error {
 		var err error
-		p, err = scanPass(tx.QueryRow(ctx, "SELECT "+passColumns+" FROM passes p WHERE p.id = $1", passID))
+		p, err = scanPass(tx.QueryRow(ctx, passFrom+"WHERE p.id = $1", passID))
 		return err
 	})
 	if errors.Is(err, pgx.ErrNoRows) {
@@ -134,17 +183,16 @@ func (s *Store) Pass(ctx context.Context, passID int64) (scan.Pass, error) {
 	return p, nil
 }
 
-// Passes returns every assigned pass of a campaign, by event (in campaign
-// order) then pass ID. Open slots nobody holds yet are not passes.
+// Passes returns every pass of a campaign, by event (in campaign order)
+// then pass ID.
 func (s *Store) Passes(ctx context.Context, campaignID int64) ([]scan.Pass, error) {
 	var ps []scan.Pass
 	err := s.tx(ctx, func(tx pgx.Tx) error {
 		if err := requireCampaign(ctx, tx, campaignID); err != nil {
 			return err
 		}
-		rows, err := tx.Query(ctx, "SELECT "+passColumns+` FROM passes p
-			JOIN events e ON e.campaign_id = p.campaign_id AND e.event_id = p.event_id
-			WHERE p.campaign_id = $1 AND p.scanner IS NOT NULL ORDER BY e.ord, p.id`, campaignID)
+		rows, err := tx.Query(ctx, passFrom+`JOIN events e ON e.campaign_id = p.campaign_id AND e.event_id = p.event_id
+			WHERE p.campaign_id = $1 ORDER BY e.ord, p.id`, campaignID)
 		if err != nil {
 			return err
 		}
@@ -164,8 +212,7 @@ func (s *Store) ScannerPasses(ctx context.Context, campaignID int64, scanner str
 		if err := requireCampaign(ctx, tx, campaignID); err != nil {
 			return err
 		}
-		rows, err := tx.Query(ctx, "SELECT "+passColumns+` FROM passes p
-			WHERE p.campaign_id = $1 AND p.scanner = $2 ORDER BY p.assigned, p.id`, campaignID, scanner)
+		rows, err := tx.Query(ctx, passFrom+`WHERE p.campaign_id = $1 AND p.scanner = $2 ORDER BY p.id`, campaignID, scanner)
 		if err != nil {
 			return err
 		}
@@ -179,12 +226,18 @@ func (s *Store) ScannerPasses(ctx context.Context, campaignID int64, scanner str
 }
 
 // SaveRevision appends a revision under a row lock on its pass, so two
-// saves of one pass (two sessions of one scanner) both land, in order.
+// saves of one pass both land, in order. A first skip asks for a
+// replacement pass; a submission may trigger the adaptive rule, decided
+// under a lock on the event row so that two last submissions racing each
+// other both count.
 func (s *Store) SaveRevision(ctx context.Context, passID int64, scanner string, rev scan.Revision) (scan.Revision, error) {
 	switch rev.State {
 	case scan.PassDraft, scan.PassSubmitted, scan.PassSkipped:
 	default:
 		return rev, fmt.Errorf("save revision of pass %d: state %q, want draft, submitted or skipped", passID, rev.State)
+	}
+	if rev.Seconds < 0 || rev.Seconds != rev.Seconds {
+		return rev, fmt.Errorf("save revision of pass %d: time spent must be zero or more, got %g", passID, rev.Seconds)
 	}
 	label, err := json.Marshal(rev.Label)
 	if err != nil {
@@ -192,38 +245,133 @@ func (s *Store) SaveRevision(ctx context.Context, passID int64, scanner string, 
 	}
 	var out scan.Revision
 	err = s.tx(ctx, func(tx pgx.Tx) error {
-		var owner *string
-		var seq, schema int
-		err := tx.QueryRow(ctx, `SELECT p.scanner, p.revisions, c.schema_version
-			FROM passes p JOIN campaigns c ON c.id = p.campaign_id
-			WHERE p.id = $1 FOR UPDATE OF p`, passID).Scan(&owner, &seq, &schema)
+		var owner, eventID, prev string
+		var campaignID int64
+		var seq, round int
+		err := tx.QueryRow(ctx, `SELECT scanner, campaign_id, event_id, state, revisions, round FROM passes
+			WHERE id = $1 FOR UPDATE`, passID).Scan(&owner, &campaignID, &eventID, &prev, &seq, &round)
 		if errors.Is(err, pgx.ErrNoRows) {
 			return store.ErrNotFound
 		}
 		if err != nil {
 			return err
 		}
-		if owner == nil || *owner != scanner {
-			return fmt.Errorf("pass is not %q's: %w", scanner, store.ErrConflict)
+		if owner != scanner {
+			return fmt.Errorf("pass belongs to %q, not %q: %w", owner, scanner, store.ErrConflict)
 		}
-		if rev.Schema != 0 {
-			schema = rev.Schema
-		}
-		out = scan.Revision{PassID: passID, Seq: seq + 1, State: rev.State, Label: rev.Label, Seconds: rev.Seconds, Schema: schema}
-		err = tx.QueryRow(ctx, `INSERT INTO revisions (pass_id, seq, state, label, seconds, at, schema_version)
-			VALUES ($1, $2, $3, $4, $5, clock_timestamp(), $6) RETURNING id, at`,
-			passID, out.Seq, string(rev.State), label, rev.Seconds, schema).Scan(&out.ID, &out.At)
+		ci, err := readInfo(ctx, tx, campaignID)
 		if err != nil {
 			return err
 		}
-		_, err = tx.Exec(ctx, `UPDATE passes SET state = $2, label = $3, seconds = seconds + $4,
-			revisions = $5, updated = $6 WHERE id = $1`, passID, string(rev.State), label, rev.Seconds, out.Seq, out.At)
-		return err
+		if rev.Schema != 0 && rev.Schema != ci.schema.Version {
+			return fmt.Errorf("label follows schema version %d but the campaign's schema %s is version %d (a campaign's schema is fixed): %w",
+				rev.Schema, ci.schema.Name, ci.schema.Version, store.ErrConflict)
+		}
+		if err := checkRevision(ci, rev); err != nil {
+			return fmt.Errorf("event %s: %w", eventID, err)
+		}
+		if rev.State != scan.PassDraft || prev == string(scan.PassSkipped) {
+			// Lock the event before reading its other passes (adaptive rule).
+			if _, err := tx.Exec(ctx, "SELECT 1 FROM events WHERE campaign_id = $1 AND event_id = $2 FOR UPDATE",
+				campaignID, eventID); err != nil {
+				return err
+			}
+		}
+		out = scan.Revision{PassID: passID, Seq: seq + 1, State: rev.State, Label: rev.Label, Seconds: rev.Seconds, Schema: ci.schema.Version}
+		err = tx.QueryRow(ctx, `INSERT INTO revisions (pass_id, seq, state, label, seconds, at, schema_version)
+			VALUES ($1, $2, $3, $4, $5, clock_timestamp(), $6) RETURNING id, at`,
+			passID, out.Seq, string(rev.State), label, rev.Seconds, out.Schema).Scan(&out.ID, &out.At)
+		if err != nil {
+			return err
+		}
+		_, err = tx.Exec(ctx, `UPDATE passes SET state = $2, latest_revision = $3, seconds = seconds + $4,
+			revisions = $5, updated = $6 WHERE id = $1`, passID, string(rev.State), out.ID, rev.Seconds, out.Seq, out.At)
+		if err != nil {
+			return err
+		}
+		return afterSave(ctx, tx, campaignID, eventID, round, ci, scan.PassState(prev), rev.State)
 	})
 	if err != nil {
 		return out, fmt.Errorf("save revision of pass %d: %w", passID, err)
 	}
 	return out, nil
+}
+
+// checkRevision checks the label against the campaign's frozen schema;
+// a verify campaign's submissions need a verdict.
+func checkRevision(ci info, rev scan.Revision) error {
+	submit := rev.State == scan.PassSubmitted
+	if err := ci.schema.CheckLabel(rev.Label, submit); err != nil {
+		return err
+	}
+	if submit && ci.mode == scan.ModeVerify && rev.Label.Verdict == "" {
+		return errors.New("a verify campaign needs a verdict: agree or disagree")
+	}
+	if submit && ci.mode == scan.ModeLabel && rev.Label.Verdict != "" {
+		return errors.New("a label campaign takes no verdict")
+	}
+	return nil
+}
+
+// afterSave applies the campaign rules after a pass moved from state prev
+// to now: a first skip wants a replacement pass (withdrawn, if nobody took
+// it yet, when the pass is taken up again); in an adaptive campaign the
+// submission that completes K disagreeing round-1 passes wants one more.
+func afterSave(ctx context.Context, tx pgx.Tx, campaignID int64, eventID string, round int, ci info, prev, now scan.PassState) error {
+	switch {
+	case now == scan.PassSkipped && prev != scan.PassSkipped:
+		_, err := tx.Exec(ctx, "UPDATE events SET needed = needed + 1 WHERE campaign_id = $1 AND event_id = $2", campaignID, eventID)
+		return err
+	case prev == scan.PassSkipped && now != scan.PassSkipped:
+		_, err := tx.Exec(ctx, "UPDATE events SET needed = needed - 1 WHERE campaign_id = $1 AND event_id = $2 AND taken < needed",
+			campaignID, eventID)
+		if err != nil {
+			return err
+		}
+	}
+	if now != scan.PassSubmitted || prev == scan.PassSubmitted || !ci.adaptive || round != 1 {
+		return nil
+	}
+	var extras int
+	var sel []byte
+	err := tx.QueryRow(ctx, "SELECT adaptive_added, selection FROM events WHERE campaign_id = $1 AND event_id = $2",
+		campaignID, eventID).Scan(&extras, &sel)
+	if err != nil {
+		return err
+	}
+	var selection *scan.Selection
+	if sel != nil {
+		selection = new(scan.Selection)
+		if err := json.Unmarshal(sel, selection); err != nil {
+			return fmt.Errorf("event %s: stored selection: %w", eventID, err)
+		}
+	}
+	rows, err := tx.Query(ctx, `SELECT r.label FROM passes p JOIN revisions r ON r.id = p.latest_revision
+		WHERE p.campaign_id = $1 AND p.event_id = $2 AND p.round = 1 AND p.state = 'submitted'
+		ORDER BY p.updated, p.id`, campaignID, eventID)
+	if err != nil {
+		return err
+	}
+	classes, err := pgx.CollectRows(rows, func(r pgx.CollectableRow) (string, error) {
+		var b []byte
+		var l scan.Label
+		if err := r.Scan(&b); err != nil {
+			return "", err
+		}
+		if err := json.Unmarshal(b, &l); err != nil {
+			return "", err
+		}
+		return campaign.EffectiveClass(l, selection), nil
+	})
+	if err != nil {
+		return err
+	}
+	if !campaign.NeedsExtraPass(ci.perEvent, classes, extras) {
+		return nil
+	}
+	_, err = tx.Exec(ctx, `UPDATE events SET needed = needed + 1, extra_round = greatest(extra_round, 2),
+		adaptive_added = adaptive_added + 1 WHERE campaign_id = $1 AND event_id = $2`, campaignID, eventID)
+	return err
 }
 
 // Revisions returns a pass's revisions, oldest first.
@@ -260,19 +408,18 @@ func scanRevision(r pgx.CollectableRow) (scan.Revision, error) {
 	}
 	v.State = scan.PassState(state)
 	if err := json.Unmarshal(label, &v.Label); err != nil {
-		return v, fmt.Errorf("revision %d: decode label: %w", v.ID, err)
+		return v, fmt.Errorf("revision %d: stored label: %w", v.ID, err)
 	}
 	return v, nil
 }
 
-// AddPass opens one more slot of an event for NextPass to hand out.
+// AddPass asks for one more pass of an event, in the given round.
 func (s *Store) AddPass(ctx context.Context, campaignID int64, eventID string, round int) error {
 	if round < 1 {
-		return fmt.Errorf("add pass of event %q: round %d, want 1 or more", eventID, round)
+		return fmt.Errorf("add pass of event %s: round %d, want 1 or more", eventID, round)
 	}
 	err := s.tx(ctx, func(tx pgx.Tx) error {
-		tag, err := tx.Exec(ctx, `INSERT INTO passes (campaign_id, event_id, round, added, pick, state)
-			SELECT campaign_id, event_id, $3, true, pick, 'assigned' FROM events
+		tag, err := tx.Exec(ctx, `UPDATE events SET needed = needed + 1, extra_round = greatest(extra_round, $3)
 			WHERE campaign_id = $1 AND event_id = $2`, campaignID, eventID, round)
 		if err != nil {
 			return err
@@ -283,7 +430,15 @@ func (s *Store) AddPass(ctx context.Context, campaignID int64, eventID string, r
 		return nil
 	})
 	if err != nil {
-		return fmt.Errorf("add pass of event %q in campaign %d: %w", eventID, campaignID, err)
+		return fmt.Errorf("add pass of event %s in campaign %d: %w", eventID, campaignID, err)
 	}
 	return nil
+}
+
+// nullTime maps the zero time to SQL NULL.
+func nullTime(t time.Time) *time.Time {
+	if t.IsZero() {
+		return nil
+	}
+	return &t
 }
