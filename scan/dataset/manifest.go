@@ -135,7 +135,7 @@ func manifestDetector(md toml.MetaData, p toml.Primitive, load func(string) (*de
 		}
 		return load(s)
 	default:
-		return nil, fmt.Errorf("detector is a %s: want a name, a path or a table", strings.ToLower(t))
+		return nil, fmt.Errorf("detector must be a name, a path or a table, not a %s", strings.ToLower(t))
 	}
 }
 
