@@ -22,7 +22,8 @@ type Pair struct {
 
 // Agreement is every agreement statistic of a table. NaN means undefined.
 type Agreement struct {
-	Items, Raters    int
+	Items            int
+	Raters           []string
 	Categories       []string
 	Metric           Metric
 	Weights          Weighting
@@ -62,7 +63,7 @@ func firstNonNumeric(t *Table) string {
 func agreeWeighted(t *Table, p *patterns, w []float64, opt Options) Agreement {
 	k := len(t.Categories)
 	a := Agreement{
-		Raters: len(t.Raters), Categories: t.Categories,
+		Raters: t.Raters, Categories: t.Categories,
 		Metric: opt.Metric, Weights: opt.Weights,
 	}
 	counts := make([][]float64, p.n())

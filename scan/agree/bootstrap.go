@@ -30,7 +30,8 @@ type AgreementCIs struct {
 // Introduction to the Bootstrap, ch. 13). Resample i draws from its own
 // generator seeded by (seed, i), so the result does not depend on how many
 // workers run, only on the seed. Resamples where a statistic is undefined
-// are left out of that statistic's interval.
+// are left out of that statistic's interval, and a statistic undefined
+// on the data has an undefined interval.
 func Bootstrap(ctx context.Context, t *Table, opt Options, b int, seed uint64, cl float64) (AgreementCIs, error) {
 	if b < 1 {
 		return AgreementCIs{}, fmt.Errorf("bootstrap: need at least one resample, got %d", b)
@@ -72,7 +73,29 @@ feed:
 	if err != nil {
 		return AgreementCIs{}, fmt.Errorf("bootstrap: %w", err)
 	}
-	return summarise(res, cl), nil
+	ci := summarise(res, cl)
+	undefinedWhereUndefined(&ci, agreeWeighted(t, p, p.weights(), opt))
+	return ci, nil
+}
+
+// undefinedWhereUndefined blanks the interval of every statistic that is
+// undefined on the data itself: resamples that happen to make it defined
+// (e.g. drop the items that break Fleiss' equal-n design) say nothing
+// about it.
+func undefinedWhereUndefined(ci *AgreementCIs, a Agreement) {
+	nan := CI{math.NaN(), math.NaN()}
+	blank := func(c *CI, v float64) {
+		if math.IsNaN(v) {
+			*c = nan
+		}
+	}
+	blank(&ci.PercentAgreement, a.PercentAgreement)
+	blank(&ci.Fleiss, a.Fleiss)
+	blank(&ci.Alpha, a.Alpha)
+	for j, p := range a.Pairs {
+		blank(&ci.Kappa[j], p.Kappa)
+		blank(&ci.WeightedKappa[j], p.WeightedKappa)
+	}
 }
 
 // resample fills w with the pattern counts of one bootstrap sample of the

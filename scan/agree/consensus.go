@@ -1,7 +1,6 @@
 package agree
 
 import (
-	"fmt"
 	"math"
 	"slices"
 )
@@ -41,6 +40,8 @@ type ConsensusResult struct {
 	Raters     []RaterQuality
 	Priors     []float64 // class prevalence (Dawid–Skene); nil for majority
 	Iterations int       // EM iterations (Dawid–Skene)
+	Converged  bool      // false if the EM stopped at MaxIter (Dawid–Skene)
+	Change     float64   // the last parameter change (Dawid–Skene)
 	Adjudicate []string  // tied items, most contested first, for a person to decide
 }
 
@@ -178,7 +179,8 @@ type DSOptions struct {
 	// Tol stops the EM when no prior or confusion entry changes by more
 	// than Tol between iterations. Default 1e-7.
 	Tol float64
-	// MaxIter bounds the iterations. Default 1000.
+	// MaxIter bounds the iterations. Default 10000: EM is slow near the
+	// boundary (a class nearly absent), e.g. on small tables.
 	MaxIter int
 }
 
@@ -188,7 +190,9 @@ type DSOptions struct {
 // memberships (E) with counts-based estimates of π and p (M). It starts
 // from the soft majority vote (each item's vote shares), so it needs no
 // random start and is deterministic: the same table gives the same answer.
-// Items whose top posteriors tie exactly go to adjudication.
+// Items whose top posteriors tie exactly go to adjudication. If the EM has
+// not converged after MaxIter iterations (slow EM on small, nearly
+// unidentifiable tables), the result says so in Converged and Change.
 func DawidSkeneEM(t *Table, opt DSOptions) (ConsensusResult, error) {
 	if opt.Smooth <= 0 {
 		opt.Smooth = 0.01
@@ -197,7 +201,7 @@ func DawidSkeneEM(t *Table, opt DSOptions) (ConsensusResult, error) {
 		opt.Tol = 1e-7
 	}
 	if opt.MaxIter <= 0 {
-		opt.MaxIter = 1000
+		opt.MaxIter = 10000
 	}
 	k := len(t.Categories)
 	if k < 2 {
@@ -224,25 +228,21 @@ func DawidSkeneEM(t *Table, opt DSOptions) (ConsensusResult, error) {
 	}
 	var priors []float64
 	var quality []RaterQuality
-	iter := 0
-	for iter = 1; iter <= opt.MaxIter; iter++ {
+	iter, delta := 0, math.Inf(1)
+	for iter < opt.MaxIter && delta >= opt.Tol {
+		iter++
 		newPriors := classPriors(p, post, opt.Smooth)
 		newQuality := raterQuality(t, p, post, opt.Smooth)
-		delta := change(priors, newPriors, quality, newQuality)
+		delta = change(priors, newPriors, quality, newQuality)
 		priors, quality = newPriors, newQuality
 		expectation(p, priors, quality, post)
-		if delta < opt.Tol {
-			break
-		}
-	}
-	if iter > opt.MaxIter {
-		return ConsensusResult{}, fmt.Errorf("dawid-skene: no convergence to %g in %d iterations", opt.Tol, opt.MaxIter)
 	}
 	lab := make([]int, p.n())
 	for q := range post {
 		lab[q] = argmaxUnique(post[q])
 	}
-	res := ConsensusResult{Method: DawidSkene, Categories: t.Categories, Priors: priors, Iterations: iter}
+	res := ConsensusResult{Method: DawidSkene, Categories: t.Categories, Priors: priors,
+		Iterations: iter, Converged: delta < opt.Tol, Change: delta}
 	res.fill(t, p, post, lab)
 	res.Raters = raterQuality(t, p, post, opt.Smooth)
 	for r := range res.Raters { // expected accuracy under the model
