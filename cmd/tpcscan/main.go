@@ -34,6 +34,10 @@ type environ struct {
 func commands() []command {
 	return []command{
 		checkCommand(),
+		viewCommand(),
+		agreeCommand(),
+		efficiencyCommand(),
+		consensusCommand(),
 	}
 }
 
