@@ -2,6 +2,8 @@ package render
 
 import (
 	"math"
+	"runtime"
+	"sync"
 
 	"github.com/tpcscan/tpcscan/scan"
 )
@@ -49,63 +51,72 @@ func (p *Pyramid) Bytes() int {
 	return n
 }
 
-// halve reduces a level by 2×2 blocks. Odd edges form short blocks. Max
-// ignores NaN (a comparison with NaN is false), so one bad sample does not
-// blank a block.
+// halve reduces a level by 2×2 blocks. Odd edges form short blocks. Output
+// wires are independent, so they are split across
+// the CPUs.
 func halve(src level) level {
 	dst := level{wires: (src.wires + 1) / 2, ticks: (src.ticks + 1) / 2}
 	n := dst.wires * dst.ticks
 	dst.max = make([]float32, n)
 	dst.sum = make([]float32, n)
-	full := src.ticks / 2 // output ticks built from two input ticks
-	for w := 0; w < dst.wires; w++ {
-		w0 := 2 * w
-		w1 := min(w0+1, src.wires-1)
-		am := src.max[w0*src.ticks : (w0+1)*src.ticks]
-		as := src.sum[w0*src.ticks : (w0+1)*src.ticks]
-		bm := src.max[w1*src.ticks : (w1+1)*src.ticks]
-		bs := src.sum[w1*src.ticks : (w1+1)*src.ticks]
-		if w1 == w0 { // last odd wire: a block of one wire
-			bs = nil
+	parallel(dst.wires, func(w0, w1 int) {
+		for w := w0; w < w1; w++ {
+			halveWire(src, dst, w)
 		}
-		om := dst.max[w*dst.ticks : (w+1)*dst.ticks]
-		os := dst.sum[w*dst.ticks : (w+1)*dst.ticks]
-		for t := 0; t < full; t++ {
-			m := am[2*t]
-			if v := am[2*t+1]; v > m {
-				m = v
-			}
-			if v := bm[2*t]; v > m {
-				m = v
-			}
-			if v := bm[2*t+1]; v > m {
-				m = v
-			}
-			om[t] = m
-			s := as[2*t] + as[2*t+1]
-			if bs != nil {
-				s += bs[2*t] + bs[2*t+1]
-			}
-			os[t] = s
-		}
-		if full < dst.ticks { // last odd tick
-			t := src.ticks - 1
-			om[full] = max32(am[t], bm[t])
-			s := as[t]
-			if bs != nil {
-				s += bs[t]
-			}
-			os[full] = s
-		}
-	}
+	})
 	return dst
 }
 
-func max32(a, b float32) float32 {
-	if b > a {
-		return b
+// parallel runs f over [0, n) in up to GOMAXPROCS chunks and waits.
+func parallel(n int, f func(lo, hi int)) {
+	k := min(runtime.GOMAXPROCS(0), n/64+1)
+	if k <= 1 {
+		f(0, n)
+		return
 	}
-	return a
+	var wg sync.WaitGroup
+	for i := range k {
+		lo, hi := i*n/k, (i+1)*n/k
+		wg.Go(func() { f(lo, hi) })
+	}
+	wg.Wait()
+}
+
+// halveWire builds output wire w of dst from input wires 2w and 2w+1.
+func halveWire(src, dst level, w int) {
+	t := src.ticks
+	a := 2 * w
+	b := min(a+1, src.wires-1)
+	om := dst.max[w*dst.ticks : (w+1)*dst.ticks]
+	os := dst.sum[w*dst.ticks : (w+1)*dst.ticks]
+	am, bm := src.max[a*t:(a+1)*t], src.max[b*t:(b+1)*t]
+	as, bs := src.sum[a*t:(a+1)*t], src.sum[b*t:(b+1)*t]
+	full := t / 2
+	if a == b { // last odd wire: blocks of one wire
+		bm, bs = am, make([]float32, t)
+	}
+	pairs(om[:full], os[:full], am, as, bm, bs)
+	if full < dst.ticks { // last odd tick: blocks of one tick
+		om[full] = max(am[t-1], bm[t-1])
+		os[full] = as[t-1] + bs[t-1]
+	}
+}
+
+// pairs reduces two wires of samples, 2×2 at a time, into max and sum:
+// the hot loop of building a pyramid. The builtin max is branch-free, which
+// matters on noise, where a compare-and-branch would mispredict half the
+// time; it also makes a NaN sample win, so a block holding one shows as
+// missing data.
+func pairs(om, os, am, as, bm, bs []float32) {
+	os = os[:len(om)]
+	for i := range om {
+		if len(am) < 2 || len(bm) < 2 || len(as) < 2 || len(bs) < 2 {
+			break
+		}
+		om[i] = max(am[0], am[1], bm[0], bm[1])
+		os[i] = (as[0] + as[1]) + (bs[0] + bs[1])
+		am, bm, as, bs = am[2:], bm[2:], as[2:], bs[2:]
+	}
 }
 
 // span is the range [a, b) of level cells one pixel reduces over.
@@ -200,18 +211,9 @@ func reduceColumn(col, src []float32, ticks int, c span, rows []span, r Reduce) 
 			if s.a < s.b {
 				m := col[j]
 				for _, v := range line[s.a:s.b] {
-					if v > m {
-						m = v
-					}
+					m = max(m, v) // branch-free: noise defeats prediction
 				}
 				col[j] = m
-			}
-		}
-	}
-	if r != ReduceSum {
-		for j, v := range col {
-			if math.IsInf(float64(v), -1) { // every sample was NaN
-				col[j] = nan
 			}
 		}
 	}
