@@ -30,7 +30,7 @@ func WritePreviewPNG(w io.Writer, m *scan.Image, ticksPerRow int, fullADC float6
 			for _, s := range row[y*ticksPerRow : min(len(row), (y+1)*ticksPerRow)] {
 				v = max(v, s)
 			}
-			f := min(1, math.Log1p(max(0, float64(v)-3))*norm) // 3 ADC ≈ 1.5σ of noise left white
+			f := min(1, math.Log1p(max(0, float64(v)-4))*norm) // noise below 2σ (4 ADC) stays white
 			pic.SetGray(wi, y, color.Gray{Y: uint8(255 * (1 - f))})
 		}
 	}

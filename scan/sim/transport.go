@@ -94,21 +94,29 @@ func stepTheta0(p, beta, ds float64) float64 {
 	return 13.6 / (beta * p) * math.Sqrt(ds/larX0) * (1 + 0.038*math.Log(mcsRefLenCm/(larX0*beta*beta)))
 }
 
-// heavy steps a muon, pion or proton of kinetic energy t (MeV) until it
-// stops or leaves the volume and returns where it ended and whether it
-// stopped inside.
-func (tr *transport) heavy(sp species, pos, dir vec, t float64) (end vec, stopped bool) {
+// trackEnd is how a stepped track ended.
+type trackEnd struct {
+	pos     vec
+	t       float64 // kinetic energy left (0 if it stopped)
+	length  float64 // path length travelled, cm
+	stopped bool    // ranged out inside the volume
+}
+
+// heavy steps a muon, pion or proton of kinetic energy t (MeV) from pos
+// along dir until it stops or leaves the volume.
+func (tr *transport) heavy(sp species, pos, dir vec, t float64) trackEnd {
 	rt := rangeTables()[sp]
 	m := sp.mass()
+	var length float64
 	for {
 		if !tr.vol.contains(pos) {
-			return pos, false
+			return trackEnd{pos: pos, t: t, length: length}
 		}
 		r := rt.Range(t)
 		if r <= 2*minStepCm {
 			end := pos.axpy(r, dir)
 			tr.depositSeg(pos, end, t, t/max(r, 1e-4))
-			return end, true
+			return trackEnd{pos: end, length: length + r, stopped: true}
 		}
 		ds := stepCm
 		if r < 2*stepCm {
@@ -128,8 +136,9 @@ func (tr *transport) heavy(sp species, pos, dir vec, t float64) (end vec, stoppe
 			t -= e
 		}
 		pos, dir = np, nd
+		length += ds
 		if t <= 0 {
-			return pos, true
+			return trackEnd{pos: pos, length: length, stopped: true}
 		}
 	}
 }
