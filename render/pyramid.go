@@ -32,7 +32,10 @@ func NewPyramid(img *scan.Image) *Pyramid {
 	}
 	l := level{wires: img.Wires, ticks: img.Ticks, max: img.Pix, sum: img.Pix}
 	p.levels = append(p.levels, l)
-	for l.wires > 1 || l.ticks > 1 {
+	// Stop before a side shrinks to one cell: further levels would help only
+	// thin strips (whose samples are few anyway) and could exceed the
+	// memory bound there.
+	for l.wires >= 3 && l.ticks >= 3 {
 		l = halve(l)
 		p.levels = append(p.levels, l)
 	}

@@ -51,9 +51,7 @@ var builtinScales = sync.OnceValue(func() []Scale {
 	out := make([]Scale, len(scaleDesigns))
 	for i, d := range scaleDesigns {
 		t := &scaleTable{}
-		for j, c := range rampOKLab(d.pts, scaleSteps) {
-			t.sw[j] = quantise(c, pal256, pal16)
-		}
+		quantiseRamp(t.sw[:], rampOKLab(d.pts, scaleSteps), pal256, pal16)
 		out[i] = Scale{Name: d.name, tab: t}
 	}
 	return out
@@ -200,6 +198,38 @@ func quantise(c color.RGBA, p256, p16 []tcell.Color) Swatch {
 		i256: uint8(tcell.FindColor(tc, p256) & 0xff),
 		i16:  uint8(tcell.FindColor(tc, p16) & 0xff),
 	}
+}
+
+// quantiseRamp quantises a ramp so that it stays a ramp: each step takes
+// tcell's nearest palette entry among those at least as light (OKLab L) as
+// the previous step's, so the 256- and 16-colour versions of a scale still
+// read dark→light. Plain nearest-colour search would not promise that: the
+// palettes are coarse, and CIE76 distance can pick a darker neighbour.
+func quantiseRamp(out []Swatch, ramp []color.RGBA, p256, p16 []tcell.Color) {
+	pick := func(pal []tcell.Color) func(c color.RGBA) uint8 {
+		floor := -1.0
+		return func(c color.RGBA) uint8 {
+			allowed := make([]tcell.Color, 0, len(pal))
+			for _, p := range pal {
+				if paletteLightness(p) >= floor {
+					allowed = append(allowed, p)
+				}
+			}
+			best := tcell.FindColor(tcell.NewRGBColor(int32(c.R), int32(c.G), int32(c.B)), allowed)
+			floor = paletteLightness(best)
+			return uint8(best & 0xff)
+		}
+	}
+	q256, q16 := pick(p256), pick(p16)
+	for i, c := range ramp {
+		out[i] = Swatch{c: c, i256: q256(c), i16: q16(c)}
+	}
+}
+
+func paletteLightness(p tcell.Color) float64 {
+	r, g, b := p.RGB()
+	l, _, _ := colorful.Color{R: float64(r) / 255, G: float64(g) / 255, B: float64(b) / 255}.OkLab()
+	return l
 }
 
 // paletteRGB returns the conventional RGB of a palette index, as tcell

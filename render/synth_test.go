@@ -41,7 +41,8 @@ func gaussTable() []float32 {
 	return t
 }
 
-func synthPlane(wires, ticks int, seed uint64) *scan.Image {
+// noisePlane is a plane of Gaussian noise of σ = synthNoise only.
+func noisePlane(wires, ticks int, seed uint64) *scan.Image {
 	img := scan.NewImage(wires, ticks)
 	g := gaussTable()
 	x := seed*0x9E3779B97F4A7C15 | 1
@@ -51,6 +52,11 @@ func synthPlane(wires, ticks int, seed uint64) *scan.Image {
 		x ^= x << 17
 		img.Pix[i] = synthNoise * g[x&4095]
 	}
+	return img
+}
+
+func synthPlane(wires, ticks int, seed uint64) *scan.Image {
+	img := noisePlane(wires, ticks, seed)
 	// Tracks: (wire, tick) start, end, peak charge per sample.
 	tracks := []struct{ w0, t0, w1, t1, q float64 }{
 		{0.30, 0.40, 0.75, 0.55, 30},  // long muon-like track
