@@ -1,0 +1,272 @@
+package sim
+
+import (
+	"context"
+	"encoding/json"
+	"errors"
+	"math"
+	"path/filepath"
+	"slices"
+	"strings"
+	"testing"
+
+	"github.com/tpcscan/tpcscan/scan"
+	"github.com/tpcscan/tpcscan/scan/dataset"
+	"github.com/tpcscan/tpcscan/scan/detector"
+)
+
+// TestGenerateDeterministic checks that an event depends only on the seed
+// and its index (so workers may generate events in any order).
+func TestGenerateDeterministic(t *testing.T) {
+	det := detector.Tarn()
+	opt := Options{Seed: 7}
+	a, ta := Generate(det, opt, 3)
+	Generate(det, opt, 4) // an unrelated event in between changes nothing
+	b, tb := Generate(det, opt, 3)
+	ja, _ := json.Marshal(ta)
+	jb, _ := json.Marshal(tb)
+	if string(ja) != string(jb) {
+		t.Fatal("truth differs between two generations of the same event")
+	}
+	for i := range a.Planes {
+		if !slices.Equal(a.Planes[i].Pix, b.Planes[i].Pix) || !slices.Equal(a.Truth[i].Pix, b.Truth[i].Pix) {
+			t.Fatalf("plane %d differs between two generations of the same event", i)
+		}
+	}
+	c, _ := Generate(det, Options{Seed: 8}, 3)
+	if slices.Equal(a.Planes[2].Pix, c.Planes[2].Pix) {
+		t.Error("seeds 7 and 8 gave the same collection plane")
+	}
+}
+
+// TestGenerateEvents checks the structure of generated events of every
+// class: valid planes, the vertex inside the active volume and seen where
+// the detector projects it, ADC counts that are integers, pixel-truth
+// codes that name a particle, and the particles each class must contain.
+func TestGenerateEvents(t *testing.T) {
+	det := detector.Tarn()
+	seen := map[string]int{}
+	for i := range 60 {
+		ev, tr := Generate(det, Options{Seed: 2}, i)
+		if err := ev.Validate(); err != nil {
+			t.Fatalf("event %d: %v", i, err)
+		}
+		seen[tr.Class]++
+		checkClassContents(t, tr)
+		if tr.Vertex != nil {
+			v := tr.Vertex.Cm
+			if !det.Contains(detector.Point{X: v[0], Y: v[1], Z: v[2]}) {
+				t.Errorf("%s: vertex %v outside the active volume", tr.Event, v)
+			}
+			for pi, ph := range tr.Vertex.Planes {
+				img := ev.Planes[pi]
+				w, k := int(math.Round(ph.Wire))-img.Wire0, int(math.Round(ph.Tick))-img.Tick0
+				if w < 0 || w >= img.Wires || k < 0 || k >= img.Ticks {
+					t.Errorf("%s: vertex (wire %.0f, tick %.0f) outside the demo crop of plane %s", tr.Event, ph.Wire, ph.Tick, ph.Plane)
+				}
+			}
+		}
+		for pi, img := range ev.Planes {
+			for _, v := range img.Pix[:1000] {
+				if v != float32(math.Round(float64(v))) {
+					t.Fatalf("%s plane %d: sample %g is not an ADC count", tr.Event, pi, v)
+				}
+			}
+			var coded int
+			for _, c := range ev.Truth[pi].Pix {
+				if c < 0 || int(c) > len(tr.Particles) {
+					t.Fatalf("%s plane %d: pixel code %d, only %d particles", tr.Event, pi, c, len(tr.Particles))
+				}
+				if c > 0 {
+					coded++
+				}
+			}
+			if coded == 0 && tr.Class != ClassCosmic {
+				t.Errorf("%s plane %d: no pixel has truth", tr.Event, pi)
+			}
+		}
+	}
+	for _, c := range Classes() {
+		if seen[c] == 0 {
+			t.Errorf("no %s event among 60 with the default mix", c)
+		}
+	}
+}
+
+// checkClassContents checks the particle content each class promises.
+func checkClassContents(t *testing.T, tr *Truth) {
+	t.Helper()
+	count := map[string]int{}
+	for _, p := range tr.Particles {
+		if p.Origin == "interaction" && p.Parent == 0 {
+			count[p.Type]++
+		}
+		if p.ID < 1 || p.ID > len(tr.Particles) || p.Parent >= p.ID {
+			t.Errorf("%s: particle %d has parent %d", tr.Event, p.ID, p.Parent)
+		}
+	}
+	want := map[string]map[string]int{
+		ClassNumuCC:  {"muon": 1, "electron": 0, "pi0": 0},
+		ClassNueCC:   {"electron": 1, "muon": 0, "pion": 0, "pi0": 0},
+		ClassNCPi0:   {"pi0": 1, "muon": 0, "electron": 0},
+		ClassNCOther: {"pi0": 0, "muon": 0, "electron": 0},
+		ClassCosmic:  {"muon": 0, "electron": 0, "proton": 0, "pi0": 0, "pion": 0},
+	}[tr.Class]
+	for typ, n := range want {
+		if count[typ] != n {
+			t.Errorf("%s (%s): %d primary %s, want %d", tr.Event, tr.Class, count[typ], typ, n)
+		}
+	}
+	if (tr.Vertex == nil) != (tr.Class == ClassCosmic) {
+		t.Errorf("%s (%s): vertex %v", tr.Event, tr.Class, tr.Vertex)
+	}
+}
+
+// TestFullSize checks that a full event covers every wire and tick.
+func TestFullSize(t *testing.T) {
+	if testing.Short() {
+		t.Skip("full event is 230 MB")
+	}
+	det := detector.Tarn()
+	ev, _ := Generate(det, Options{Seed: 1, Size: SizeFull, Mix: map[string]float64{ClassCosmic: 1}}, 0)
+	var samples int
+	for i, img := range ev.Planes {
+		if img.Wires != det.Planes[i].Wires || img.Ticks != det.ReadoutTicks || img.Wire0 != 0 || img.Tick0 != 0 {
+			t.Errorf("plane %d: %d×%d from (%d, %d)", i, img.Wires, img.Ticks, img.Wire0, img.Tick0)
+		}
+		samples += len(img.Pix)
+	}
+	if samples < 28e6 || samples > 30e6 {
+		t.Errorf("%d samples, want about 29 million", samples)
+	}
+}
+
+// TestResponseChargeConservation checks the readout chain without noise:
+// the pulses of a deposit sum (over wires and ticks) to its charge after
+// lifetime attenuation times σ_shaping·√(2π), the area of a pulse whose
+// peak is the charge.
+func TestResponseChargeConservation(t *testing.T) {
+	det := detector.Tarn()
+	r := eventRand(5, 0)
+	vol := box{lo: vec{0, -100, 0}, hi: vec{200, 100, 600}}
+	g := &generator{r: r, det: det, vol: vol, tr: newTransport(r, vol, 0.5), truth: &Truth{}}
+	x := 120.0
+	g.tr.code = 1
+	g.tr.depositSeg(vec{x, 0, 300}, vec{x + 1, 0.5, 303}, 10, 2.1)
+	q := float64(g.tr.deps[0].q)
+	tUs := (x + 0.5) / det.DriftVelocityCmUs
+	sigSh := shapingUs / det.SamplingUs
+	want := q * math.Exp(-tUs/lifetimeUs) * sigSh * math.Sqrt(2*math.Pi)
+	for i := range det.Planes {
+		win := g.window(i, SizeDemo, vec{x, 0, 300})
+		img := testImage(win)
+		tru := testTruth(win)
+		hits, start := bucketByWire(g.planeHits(i, win), win.wires)
+		fill(img, tru, hits, start)
+		var sum float64
+		for _, v := range img.Pix {
+			sum += float64(v)
+		}
+		// ±3σ pulses keep 99.7% of the area.
+		if relErr(sum, want) > 0.005 {
+			t.Errorf("plane %d: pulse area %.0f, want %.0f", i, sum, want)
+		}
+	}
+}
+
+func testImage(w window) *scan.Image {
+	return &scan.Image{Wires: w.wires, Ticks: w.ticks, Wire0: w.wire0, Tick0: w.tick0, Pix: make([]float32, w.wires*w.ticks)}
+}
+
+func testTruth(w window) *scan.TruthImage {
+	return &scan.TruthImage{Wires: w.wires, Ticks: w.ticks, Wire0: w.wire0, Tick0: w.tick0, Pix: make([]int32, w.wires*w.ticks)}
+}
+
+// TestOptionsValidate checks the errors for bad options and mixes.
+func TestOptionsValidate(t *testing.T) {
+	for _, c := range []struct {
+		name, mix, size string
+		events          int
+		want            string
+	}{
+		{"ok", "numu-cc=1,cosmic=0.5", "demo", 3, ""},
+		{"unknown class", "numu=1", "demo", 3, `unknown class "numu"`},
+		{"negative weight", "numu-cc=-1,cosmic=1", "demo", 3, "≥ 0"},
+		{"zero sum", "numu-cc=0", "", 3, "sum to zero"},
+		{"size", "", "huge", 3, `size "huge"`},
+		{"events", "", "full", -1, "events must be"},
+	} {
+		t.Run(c.name, func(t *testing.T) {
+			var mix map[string]float64
+			if c.mix != "" {
+				var err error
+				if mix, err = ParseMix(c.mix); err != nil {
+					t.Fatal(err)
+				}
+			}
+			err := Options{Events: c.events, Size: c.size, Mix: mix}.Validate()
+			if c.want == "" && err != nil || c.want != "" && (err == nil || !strings.Contains(err.Error(), c.want)) {
+				t.Errorf("Validate() = %v, want %q", err, c.want)
+			}
+		})
+	}
+	for _, bad := range []string{"numu-cc", "numu-cc=x"} {
+		if _, err := ParseMix(bad); err == nil {
+			t.Errorf("ParseMix(%q) succeeded", bad)
+		}
+	}
+}
+
+// TestWriteDataset writes a small dataset, checks it with the dataset
+// package and reads an event and its truth back.
+func TestWriteDataset(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "demo")
+	var calls int
+	if err := WriteDataset(context.Background(), dir, Options{Events: 6, Seed: 4}, func(done, total int) {
+		calls++
+		if done != calls || total != 6 {
+			t.Errorf("progress(%d, %d) at call %d", done, total, calls)
+		}
+	}); err != nil {
+		t.Fatal(err)
+	}
+	rep := dataset.Check(context.Background(), dir, nil)
+	if !rep.OK() {
+		t.Fatalf("dataset check: %+v", rep.Problems)
+	}
+	ds, err := dataset.Open(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if len(ds.Events()) != 6 || ds.Events()[0].ID != EventID(0) {
+		t.Fatalf("events %v", ds.Events())
+	}
+	ev, err := ds.Load(EventID(2))
+	if err != nil {
+		t.Fatal(err)
+	}
+	want, _ := Generate(detector.Tarn(), Options{Seed: 4}, 2)
+	if !slices.Equal(ev.Planes[2].Pix, want.Planes[2].Pix) || ev.Truth == nil || !slices.Equal(ev.Truth[2].Pix, want.Truth[2].Pix) {
+		t.Error("event read back differs from the generated one")
+	}
+	js, err := ds.TruthJSON(EventID(2))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var tr Truth
+	if err := json.Unmarshal(js, &tr); err != nil || tr.Event != EventID(2) || !slices.Contains(Classes(), tr.Class) {
+		t.Errorf("truth %s: %v", js, err)
+	}
+	if err := WriteDataset(context.Background(), dir, Options{Events: 1}, nil); err == nil {
+		t.Error("writing over an existing dataset succeeded")
+	}
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	dir2 := filepath.Join(t.TempDir(), "cancelled")
+	if err := WriteDataset(ctx, dir2, Options{Events: 50}, nil); !errors.Is(err, context.Canceled) {
+		t.Errorf("cancelled write returned %v", err)
+	}
+	if _, err := dataset.Open(dir2); err == nil {
+		t.Error("a cancelled write left a dataset that opens")
+	}
+}
