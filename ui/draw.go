@@ -155,7 +155,9 @@ func (v *planes) render() []string {
 		v.cache, v.work = render.NewCanvas(v.w, v.h), render.NewCanvas(v.w, v.h)
 		v.keys = nil
 	}
+	blank := render.Cell{Rune: ' '}
 	if v.prep == nil || len(v.panes) == 0 {
+		v.cache.Fill(0, 0, v.w, v.h, blank)
 		copy(v.work.Cells, v.cache.Cells)
 		v.lines = v.work.Lines(v.tier)
 		return v.lines
@@ -163,7 +165,7 @@ func (v *planes) render() []string {
 	if len(v.keys) != len(v.panes) {
 		v.keys = make([]paneKey, len(v.panes))
 		v.grids = make([]render.Grid, len(v.panes))
-		clear(v.cache.Cells)
+		v.cache.Fill(0, 0, v.w, v.h, blank)
 	}
 	for k, p := range v.panes {
 		key := v.paneKey(p)

@@ -38,6 +38,7 @@ func commands() []command {
 		agreeCommand(),
 		efficiencyCommand(),
 		consensusCommand(),
+		demoScanCommand(),
 	}
 }
 

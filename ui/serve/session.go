@@ -62,7 +62,9 @@ type App struct {
 	Options []tea.ProgramOption
 }
 
-// Factory builds the root model of a session. ctx ends with the session.
+// Factory builds the root model of a session. ctx ends when the model has
+// quit, not when the connection drops: the model's last save, on the stop
+// message, still needs it.
 type Factory func(ctx context.Context, s Session) (App, error)
 
 // programMiddleware runs one bubbletea program per session. It replaces
@@ -112,7 +114,7 @@ func (s *Server) runSession(sess ssh.Session) {
 		return
 	}
 	info := s.describe(sess, l.id, sc, log)
-	sctx, cancel := context.WithCancel(ctx)
+	sctx, cancel := context.WithCancel(context.WithoutCancel(ctx))
 	defer cancel()
 	app, err := s.cfg.Factory(sctx, info)
 	if err == nil && (app.Model == nil || app.Stop == nil) {
