@@ -331,34 +331,64 @@ const chunk = 64 << 10
 
 // readFloat32 reads the data of h as float32, rejecting NaN and ±Inf.
 func (h *npyHeader) readFloat32(r io.Reader) ([]float32, error) {
-	out := make([]float32, h.Len())
-	dt := h.dtype
-	if dt.descr[1:] == "i4" {
+	if h.dtype.descr[1:] == "i4" {
 		return nil, fmt.Errorf("dtype %s is for pixel truth, not charge", h.Descr)
 	}
-	err := h.each(r, func(i int, b []byte) error {
-		var v float32
-		switch dt.descr[1:] {
-		case "f4":
-			v = math.Float32frombits(dt.order.Uint32(b))
-		case "f8":
-			f := math.Float64frombits(dt.order.Uint64(b))
-			if math.Abs(f) > math.MaxFloat32 && !math.IsInf(f, 0) {
-				return fmt.Errorf("element %s is %g, beyond float32 range", h.index(i), f)
+	out := make([]float32, h.Len())
+	err := h.chunks(r, func(first int, b []byte) error {
+		dst := out[first : first+len(b)/h.dtype.size]
+		decodeFloat32(dst, b, h.dtype)
+		for k, v := range dst {
+			// v−v is 0 for finite v and NaN for NaN and ±Inf.
+			if v-v != 0 {
+				return h.badValue(first+k, b[k*h.dtype.size:(k+1)*h.dtype.size])
 			}
-			v = float32(f)
-		case "i2":
-			v = float32(int16(dt.order.Uint16(b)))
-		case "u2":
-			v = float32(dt.order.Uint16(b))
 		}
-		if f := float64(v); math.IsNaN(f) || math.IsInf(f, 0) {
-			return fmt.Errorf("element %s is %v: charge must be finite", h.index(i), f)
-		}
-		out[i] = v
 		return nil
 	})
 	return out, err
+}
+
+// decodeFloat32 converts a chunk of raw elements; the type switch sits
+// outside the loops so that each loop is tight.
+func decodeFloat32(dst []float32, b []byte, dt dtype) {
+	o := dt.order
+	switch dt.descr[1:] {
+	case "f4":
+		for k := range dst {
+			dst[k] = math.Float32frombits(o.Uint32(b[4*k:]))
+		}
+	case "f8":
+		for k := range dst {
+			f := math.Float64frombits(o.Uint64(b[8*k:]))
+			if math.Abs(f) > math.MaxFloat32 {
+				f = math.NaN() // reported by badValue
+			}
+			dst[k] = float32(f)
+		}
+	case "i2":
+		for k := range dst {
+			dst[k] = float32(int16(o.Uint16(b[2*k:])))
+		}
+	case "u2":
+		for k := range dst {
+			dst[k] = float32(o.Uint16(b[2*k:]))
+		}
+	}
+}
+
+// badValue describes a non-finite or out-of-range element.
+func (h *npyHeader) badValue(i int, raw []byte) error {
+	var f float64
+	if h.dtype.size == 8 {
+		f = math.Float64frombits(h.dtype.order.Uint64(raw))
+	} else {
+		f = float64(math.Float32frombits(h.dtype.order.Uint32(raw)))
+	}
+	if !math.IsNaN(f) && !math.IsInf(f, 0) {
+		return fmt.Errorf("element %s is %g, beyond float32 range", h.index(i), f)
+	}
+	return fmt.Errorf("element %s is %v: charge must be finite", h.index(i), f)
 }
 
 // readInt32 reads the data of h as int32 (pixel truth).
@@ -367,30 +397,32 @@ func (h *npyHeader) readInt32(r io.Reader) ([]int32, error) {
 		return nil, fmt.Errorf("dtype %s: pixel truth must be int32 (<i4)", h.Descr)
 	}
 	out := make([]int32, h.Len())
-	err := h.each(r, func(i int, b []byte) error {
-		out[i] = int32(h.dtype.order.Uint32(b))
+	err := h.chunks(r, func(first int, b []byte) error {
+		dst := out[first : first+len(b)/4]
+		for k := range dst {
+			dst[k] = int32(h.dtype.order.Uint32(b[4*k:]))
+		}
 		return nil
 	})
 	return out, err
 }
 
-// each calls f for every element's bytes, in order.
-func (h *npyHeader) each(r io.Reader, f func(i int, b []byte) error) error {
+// chunks reads the data in pieces of whole elements and hands each to f
+// with the index of its first element.
+func (h *npyHeader) chunks(r io.Reader, f func(first int, b []byte) error) error {
 	size := h.dtype.size
-	buf := make([]byte, min(int64(chunk), max(h.dataLen, 1)))
+	buf := make([]byte, min(int64(chunk), max(h.dataLen, int64(size))))
 	buf = buf[:len(buf)/size*size]
-	i := 0
+	first := 0
 	for left := h.dataLen; left > 0; {
 		n := min(int64(len(buf)), left)
 		if _, err := io.ReadFull(r, buf[:n]); err != nil {
 			return fmt.Errorf("npy data: %w", truncated(err))
 		}
-		for off := 0; off < int(n); off += size {
-			if err := f(i, buf[off:off+size]); err != nil {
-				return err
-			}
-			i++
+		if err := f(first, buf[:n]); err != nil {
+			return err
 		}
+		first += int(n) / size
 		left -= n
 	}
 	return nil
