@@ -148,6 +148,15 @@ func campaignPasses(ctx context.Context, st store.Store, id int64) ([]scan.Pass,
 	if err != nil {
 		return nil, fmt.Errorf("read passes: %w", err)
 	}
+	c, err := st.Campaign(ctx, id)
+	if err != nil {
+		return nil, fmt.Errorf("read campaign: %w", err)
+	}
+	if c.Mode == scan.ModeVerify {
+		if err := verdictClasses(ctx, st, id, ps); err != nil {
+			return nil, err
+		}
+	}
 	for i, p := range ps {
 		if p.State != scan.PassDraft || p.Revisions < 2 {
 			continue
@@ -164,6 +173,28 @@ func campaignPasses(ctx context.Context, st store.Store, id int64) ([]scan.Pass,
 		}
 	}
 	return ps, nil
+}
+
+// verdictClasses gives each "agree" verdict of a verify campaign the
+// selection's class it agreed with, so that every submitted pass rates a
+// class.
+func verdictClasses(ctx context.Context, st store.Store, id int64, ps []scan.Pass) error {
+	evs, err := st.Events(ctx, id)
+	if err != nil {
+		return fmt.Errorf("read events: %w", err)
+	}
+	sel := map[string]string{}
+	for _, e := range evs {
+		if e.Selection != nil {
+			sel[e.EventID] = e.Selection.Class
+		}
+	}
+	for i, p := range ps {
+		if p.Label.Verdict == "agree" && p.Label.Class == "" {
+			ps[i].Label.Class = sel[p.EventID]
+		}
+	}
+	return nil
 }
 
 func splitList(s string) []string {

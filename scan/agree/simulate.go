@@ -126,3 +126,18 @@ func TableFromCodes(items, raters, categories []string, codes [][]int) (*Table, 
 	}
 	return t, nil
 }
+
+// Answer returns the rater's answer for an item of true class truth, given
+// a uniform random number u in [0, 1): the inverse of the cumulative
+// confusion row. Callers seed u per (rater, item) to stay deterministic
+// whatever the order in which items are scanned.
+func (r SimRater) Answer(truth int, u float64) int {
+	row := r.Confusion[truth]
+	for l, v := range row {
+		if u < v {
+			return l
+		}
+		u -= v
+	}
+	return len(row) - 1
+}
