@@ -1,7 +1,6 @@
 package render
 
 import (
-	"image/color"
 	"math"
 	"strconv"
 )
@@ -90,20 +89,21 @@ func niceStep(raw float64) float64 {
 }
 
 // labelRow writes tick labels (charge × factor) under their positions on
-// the bar, skipping any that would touch the previous one, and the unit
-// after the last. It returns 1.
+// the bar, skipping any that would touch the previous one or the unit,
+// which goes at the right end. It returns 1.
 func labelRow(c *Canvas, x, y, w int, r Range, ticks []float64, factor float64, unit string) int {
-	next := x // first free column
+	limit := x + w - len(unit) - 1 // labels end before the unit
+	next := x                      // first free column
 	for _, v := range ticks {
 		col := x + int(math.Round(r.Frac(v)*float64(w-1)))
 		label := formatCharge(v * factor)
 		start := max(col-len(label)/2, x)
-		if start < next || start+len(label) > x+w {
+		if start < next || start+len(label) > limit {
 			continue
 		}
 		next = c.Text(start, y, label, nil, nil, 0) + 1
 	}
-	if next+len(unit) <= x+w {
+	if len(unit) <= w {
 		c.Text(x+w-len(unit), y, unit, nil, nil, AttrBold)
 	}
 	return 1
@@ -111,16 +111,8 @@ func labelRow(c *Canvas, x, y, w int, r Range, ticks []float64, factor float64, 
 
 // formatCharge writes a value with at most three significant digits.
 func formatCharge(v float64) string {
-	a := math.Abs(v)
-	switch {
-	case a >= 1e4:
-		return strconv.FormatFloat(v/1e3, 'f', 0, 64) + "k"
-	case a >= 100 || a == 0:
-		return strconv.FormatFloat(v, 'f', 0, 64)
-	case a >= 10:
-		return strconv.FormatFloat(v, 'f', 1, 64)
+	if math.Abs(v) >= 1e4 {
+		return strconv.FormatFloat(v/1e3, 'g', 3, 64) + "k"
 	}
-	return strconv.FormatFloat(v, 'g', 2, 64)
+	return strconv.FormatFloat(v, 'g', 3, 64)
 }
-
-var _ color.Color = (*Swatch)(nil)

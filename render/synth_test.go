@@ -73,19 +73,24 @@ func synthPlane(wires, ticks int, seed uint64) *scan.Image {
 	return img
 }
 
-// drawTrack adds a line of charge with a Gaussian profile of 2 ticks
-// across the drift direction, one step per wire or tick.
+// drawTrack adds a line of charge, q per sample along it: a Gaussian
+// profile of 2 ticks across the drift direction where the track runs along
+// the wires, one sample per tick where it runs along the drift.
 func drawTrack(img *scan.Image, w0, t0, w1, t1, q float64) {
 	n := int(math.Max(math.Abs(w1-w0), math.Abs(t1-t0))) + 1
+	steep := math.Abs(t1-t0) > math.Abs(w1-w0)
 	for i := range n {
 		f := float64(i) / float64(max(n-1, 1))
 		w := int(w0 + f*(w1-w0))
 		t := t0 + f*(t1-t0)
+		if steep {
+			img.Set(w, int(t), img.At(w, int(t))+float32(q))
+			continue
+		}
 		for dt := -4; dt <= 4; dt++ {
 			tt := int(t) + dt
 			d := float64(tt) - t
-			v := img.At(w, tt) + float32(q*math.Exp(-d*d/8))
-			img.Set(w, tt, v)
+			img.Set(w, tt, img.At(w, tt)+float32(q*math.Exp(-d*d/8)))
 		}
 	}
 }
