@@ -60,7 +60,7 @@ func printReport(w io.Writer, r *dataset.Report, maxProblems int) {
 		fmt.Fprintf(w, "detector  %s: %s; %d readout ticks\n", scan.CleanText(r.Detector), strings.Join(ps, ", "), ticks)
 	}
 	if r.Detector == "" && r.Events == 0 {
-		fmt.Fprintln(w, "manifest  unreadable")
+		fmt.Fprintln(w, "manifest  not usable: see the problems")
 		printProblems(w, r, maxProblems)
 		return
 	}

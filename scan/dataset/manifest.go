@@ -84,9 +84,7 @@ func parseManifest(r io.Reader, name string, loadDetector func(rel string) (*det
 		return nil, nil, fmt.Errorf("read %s: %w", name, err)
 	}
 	var errs []error
-	for _, k := range md.Undecoded() {
-		errs = append(errs, fmt.Errorf("unknown key %q", k.String()))
-	}
+	errs = append(errs, unknownKeys(md, data)...)
 	seen := make(map[string]int, len(m.Events))
 	for i := range m.Events {
 		e := &m.Events[i]
@@ -104,6 +102,43 @@ func parseManifest(r io.Reader, name string, loadDetector func(rel string) (*det
 		return nil, nil, &ManifestError{Name: name, Problems: errs}
 	}
 	return det, m.Events, nil
+}
+
+// unknownKeys reports keys the manifest format does not have, naming the
+// event for keys inside [[events]] tables.
+func unknownKeys(md toml.MetaData, data []byte) []error {
+	und := md.Undecoded()
+	if len(und) == 0 {
+		return nil
+	}
+	var raw struct {
+		Events []map[string]any `toml:"events"`
+	}
+	_, rawErr := toml.Decode(string(data), &raw)
+	var errs []error
+	for _, k := range und {
+		if len(k) < 2 || k[0] != "events" || rawErr != nil {
+			errs = append(errs, fmt.Errorf("unknown key %q", k.String()))
+			continue
+		}
+		for _, e := range raw.Events {
+			if hasPath(e, k[1:]) {
+				id, _ := e["id"].(string)
+				errs = append(errs, &Error{Event: id, File: ManifestName, Err: fmt.Errorf("unknown key %q", k.String())})
+			}
+		}
+	}
+	return errs
+}
+
+// hasPath reports whether the nested key path exists in m.
+func hasPath(m map[string]any, path []string) bool {
+	v, ok := m[path[0]]
+	if !ok || len(path) == 1 {
+		return ok
+	}
+	sub, isMap := v.(map[string]any)
+	return isMap && hasPath(sub, path[1:])
 }
 
 // manifestDetector resolves the detector key: an inline table, the name of

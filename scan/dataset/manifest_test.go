@@ -26,7 +26,7 @@ func TestManifestRejects(t *testing.T) {
 		{"detector escapes", "format = 1\ndetector = \"../det.toml\"", "escapes the dataset folder"},
 		{"bad inline detector", "format = 1\n[detector]\nname = \"x\"\n", "drift_length_cm must be a positive number"},
 		{"unknown top key", "format = 1\ndetector = \"tarn\"\ncolour = 3", `unknown key "colour"`},
-		{"unknown event key", "format = 1\ndetector = \"tarn\"\n[[events]]\nid = \"a\"\nplane = 3\n" + planes, `unknown key "events.plane"`},
+		{"unknown event key", "format = 1\ndetector = \"tarn\"\n[[events]]\nid = \"z\"\n" + planes + "\n[[events]]\nid = \"a\"\nplane = 3\n" + planes, `read tpcscan.toml: event a: tpcscan.toml: unknown key "events.plane"`},
 		{"toml syntax", "format = 1\ndetector = \"tarn\"\n[[events]\n", "toml"},
 		{"duplicate id", "format = 1\ndetector = \"tarn\"\n[[events]]\nid = \"a\"\n" + planes + "\n[[events]]\nid = \"a\"\n" + planes, "event a: tpcscan.toml: duplicate event id"},
 		{"bad id", "format = 1\ndetector = \"tarn\"\n[[events]]\nid = \"a b\"\n" + planes, `event id "a b"`},
