@@ -39,6 +39,7 @@ func commands() []command {
 		efficiencyCommand(),
 		consensusCommand(),
 		demoScanCommand(),
+		demoCommand(),
 	}
 }
 
