@@ -31,10 +31,11 @@ type pen struct {
 func (c *Canvas) Lines(t Tier) []string {
 	q := quantiser{tier: t}
 	out := make([]string, c.H)
-	var b strings.Builder
-	b.Grow(c.W * 8)
+	ends := make([]int, c.H)
+	// One buffer for every line: a frame is a handful of allocations, not
+	// one per line or per escape sequence.
+	buf := make([]byte, 0, c.W*c.H*4)
 	for y := range c.H {
-		b.Reset()
 		var cur pen
 		for _, cell := range c.Cells[y*c.W : (y+1)*c.W] {
 			r := cell.Rune
@@ -47,19 +48,25 @@ func (c *Canvas) Lines(t Tier) []string {
 				r, next = simplify(r, next, cur)
 			}
 			if next != cur {
-				writeSGR(&b, cur, next, t)
+				buf = appendSGR(buf, cur, next, t)
 				cur = next
 			}
 			if r < utf8.RuneSelf && r >= ' ' {
-				b.WriteByte(byte(r))
+				buf = append(buf, byte(r))
 			} else {
-				b.WriteRune(r)
+				buf = utf8.AppendRune(buf, r)
 			}
 		}
 		if cur != (pen{}) {
-			b.WriteString("\x1b[m")
+			buf = append(buf, "\x1b[m"...)
 		}
-		out[y] = b.String()
+		ends[y] = len(buf)
+	}
+	all := string(buf)
+	start := 0
+	for y, end := range ends {
+		out[y] = all[start:end]
+		start = end
 	}
 	return out
 }
@@ -102,15 +109,16 @@ func b2i(b bool) int {
 	return 0
 }
 
-// writeSGR emits one Select Graphic Rendition sequence (ECMA-48) that takes
-// the terminal from pen cur to pen next.
-func writeSGR(b *strings.Builder, cur, next pen, t Tier) {
-	var buf [64]byte
-	p := buf[:0]
-	sep := func() {
-		if len(p) > 0 {
+// appendSGR appends one Select Graphic Rendition sequence (ECMA-48) that
+// takes the terminal from pen cur to pen next.
+func appendSGR(p []byte, cur, next pen, t Tier) []byte {
+	p = append(p, "\x1b["...)
+	first := len(p)
+	sep := func(p []byte) []byte {
+		if len(p) > first {
 			p = append(p, ';')
 		}
+		return p
 	}
 	// Attributes that switch off: 22 bold, 27 reverse, 24 underline.
 	off := cur.attr &^ next.attr
@@ -120,25 +128,19 @@ func writeSGR(b *strings.Builder, cur, next pen, t Tier) {
 		on, off string
 	}{{AttrBold, "1", "22"}, {AttrReverse, "7", "27"}, {AttrUnderline, "4", "24"}} {
 		if off&a.bit != 0 {
-			sep()
-			p = append(p, a.off...)
+			p = append(sep(p), a.off...)
 		}
 		if on&a.bit != 0 {
-			sep()
-			p = append(p, a.on...)
+			p = append(sep(p), a.on...)
 		}
 	}
 	if next.fg != cur.fg {
-		sep()
-		p = appendColor(p, next.fg, t, false)
+		p = appendColor(sep(p), next.fg, t, false)
 	}
 	if next.bg != cur.bg {
-		sep()
-		p = appendColor(p, next.bg, t, true)
+		p = appendColor(sep(p), next.bg, t, true)
 	}
-	b.WriteString("\x1b[")
-	b.Write(p)
-	b.WriteByte('m')
+	return append(p, 'm')
 }
 
 func appendColor(p []byte, k colorKey, t Tier, bg bool) []byte {

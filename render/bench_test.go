@@ -83,6 +83,7 @@ func BenchmarkFrame(b *testing.B) {
 	for _, tier := range []Tier{Tier256, TierTrueColor, Tier16, TierMono, TierBraille} {
 		for _, z := range benchZooms {
 			b.Run(tier.String()+"/"+z.name, func(b *testing.B) {
+				b.ReportAllocs()
 				var n int
 				times := make([]time.Duration, 0, b.N)
 				for b.Loop() {
