@@ -74,6 +74,10 @@ func Open(ctx context.Context, path string) (*Store, error) {
 	if err := checkHeader(path); err != nil {
 		return nil, err
 	}
+	have, err := inspect(ctx, path)
+	if err != nil {
+		return nil, err
+	}
 	w, err := sql.Open("sqlite", dsn(path, "immediate"))
 	if err != nil {
 		return nil, fmt.Errorf("open %s: %w", path, err)
@@ -86,7 +90,7 @@ func Open(ctx context.Context, path string) (*Store, error) {
 	}
 	r.SetMaxOpenConns(4)
 	s := &Store{path: path, w: w, r: r, schemas: map[int64]campaignInfo{}}
-	if err := s.migrate(ctx); err != nil {
+	if err := s.migrate(ctx, have); err != nil {
 		s.Close()
 		return nil, err
 	}
@@ -127,6 +131,36 @@ func checkHeader(path string) error {
 	return nil
 }
 
+// inspect looks at an existing file through a read-only connection with no
+// pragmas, so that a file of another program is refused before anything
+// (such as switching it to WAL) could change it. It returns the file's
+// schema version, 0 for a new file.
+func inspect(ctx context.Context, path string) (int, error) {
+	if fi, err := os.Stat(path); err != nil || fi.Size() == 0 {
+		return 0, nil
+	}
+	db, err := sql.Open("sqlite", "file:"+(&url.URL{Path: path}).EscapedPath()+"?mode=ro")
+	if err != nil {
+		return 0, fmt.Errorf("open %s: %w", path, err)
+	}
+	defer db.Close()
+	ex := &Store{path: path}
+	tx, err := db.BeginTx(ctx, &sql.TxOptions{ReadOnly: true})
+	if err != nil {
+		return 0, ex.explain(fmt.Errorf("open %s: %w", path, err))
+	}
+	defer tx.Rollback()
+	if err := checkOwner(ctx, tx, path); err != nil {
+		return 0, ex.explain(err)
+	}
+	var have int
+	err = tx.QueryRowContext(ctx, `SELECT coalesce(max(version), 0) FROM schema_migrations`).Scan(&have)
+	if err != nil && !strings.Contains(err.Error(), "no such table") {
+		return 0, ex.explain(fmt.Errorf("open %s: read schema version: %w", path, err))
+	}
+	return have, nil
+}
+
 // Close releases the database.
 func (s *Store) Close() error {
 	return errors.Join(s.r.Close(), s.w.Close())
@@ -137,13 +171,16 @@ func (s *Store) Path() string { return s.path }
 
 // migrate applies the embedded migrations that the file lacks, all in one
 // transaction, after checking that the file is ours and not newer.
-func (s *Store) migrate(ctx context.Context) error {
+func (s *Store) migrate(ctx context.Context, seen int) error {
 	names, err := migrationFS.ReadDir("migrations")
 	if err != nil {
 		return fmt.Errorf("read migrations: %w", err)
 	}
+	if seen == len(names) {
+		return nil // up to date: open without writing
+	}
 	return s.tx(ctx, func(tx *sql.Tx) error {
-		if err := s.checkOwner(ctx, tx); err != nil {
+		if err := checkOwner(ctx, tx, s.path); err != nil {
 			return err
 		}
 		if _, err := tx.ExecContext(ctx, `CREATE TABLE IF NOT EXISTS schema_migrations (version INTEGER PRIMARY KEY, name TEXT NOT NULL, applied TEXT NOT NULL)`); err != nil {
@@ -182,17 +219,17 @@ func (s *Store) migrate(ctx context.Context) error {
 
 // checkOwner refuses an SQLite file that another program made: one with a
 // different application ID, or with tables and no schema_migrations.
-func (s *Store) checkOwner(ctx context.Context, tx *sql.Tx) error {
+func checkOwner(ctx context.Context, tx *sql.Tx, path string) error {
 	var app int64
 	if err := tx.QueryRowContext(ctx, `PRAGMA application_id`).Scan(&app); err != nil {
-		return fmt.Errorf("open %s: %w", s.path, err)
+		return fmt.Errorf("open %s: %w", path, err)
 	}
 	if app != 0 && app != applicationID {
-		return fmt.Errorf("open %s: not a tpcscan database: it belongs to another program (application id %#x); nothing was changed", s.path, app)
+		return fmt.Errorf("open %s: not a tpcscan database: it belongs to another program (application id %#x); nothing was changed", path, app)
 	}
 	rows, err := tx.QueryContext(ctx, `SELECT name FROM sqlite_master WHERE type = 'table' AND name NOT LIKE 'sqlite_%'`)
 	if err != nil {
-		return fmt.Errorf("open %s: %w", s.path, err)
+		return fmt.Errorf("open %s: %w", path, err)
 	}
 	defer rows.Close()
 	var tables []string
@@ -204,14 +241,14 @@ func (s *Store) checkOwner(ctx context.Context, tx *sql.Tx) error {
 		tables = append(tables, n)
 	}
 	if err := rows.Err(); err != nil {
-		return fmt.Errorf("open %s: %w", s.path, err)
+		return fmt.Errorf("open %s: %w", path, err)
 	}
 	if len(tables) > 0 && !slices.Contains(tables, "schema_migrations") {
 		sort.Strings(tables)
 		if len(tables) > 5 {
 			tables = append(tables[:5], "…")
 		}
-		return fmt.Errorf("open %s: not a tpcscan database: an SQLite file of another program (tables %s); nothing was changed", s.path, strings.Join(tables, ", "))
+		return fmt.Errorf("open %s: not a tpcscan database: an SQLite file of another program (tables %s); nothing was changed", path, strings.Join(tables, ", "))
 	}
 	return nil
 }

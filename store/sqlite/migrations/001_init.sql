@@ -67,6 +67,7 @@ CREATE TABLE passes (
 	UNIQUE (campaign_id, event_id, scanner)
 );
 CREATE INDEX passes_scanner ON passes (campaign_id, scanner, id);
+CREATE INDEX passes_open ON passes (campaign_id, scanner, id) WHERE state IN ('assigned', 'draft');
 
 -- Revisions are append-only: the database itself refuses to change them.
 CREATE TRIGGER revisions_no_update BEFORE UPDATE ON revisions
