@@ -68,7 +68,9 @@ func Open(ctx context.Context, dsn string) (*Store, error) {
 	if !strings.Contains(dsn, "pool_max_conns") {
 		cfg.MaxConns = defaultMaxConns
 	}
-	cfg.ConnConfig.RuntimeParams["application_name"] = "tpcscan"
+	if _, ok := cfg.ConnConfig.RuntimeParams["application_name"]; !ok {
+		cfg.ConnConfig.RuntimeParams["application_name"] = "tpcscan" // shows in pg_stat_activity
+	}
 	ctx, cancel := context.WithTimeout(ctx, opTimeout)
 	defer cancel()
 	pool, err := pgxpool.NewWithConfig(ctx, cfg)
@@ -172,20 +174,22 @@ func (s *Store) migrate(ctx context.Context) error {
 	return nil
 }
 
-// tx runs fn in a transaction, commits, and retries the whole transaction
-// when the server reports a serialisation failure or deadlock, or when the
-// error came before anything reached the server (a pooled connection that
-// died). Errors from fn itself (not found, conflict) are returned as is.
+// tx runs fn in a transaction and commits. It runs the whole transaction
+// again, after a short jittered backoff, when it failed without
+// committing for a reason that another try can cure: a serialisation
+// failure or deadlock, or the server connection dying before COMMIT was
+// sent (a restarted server, a killed backend, a dropped link). Errors from
+// fn itself (not found, conflict) are returned as they are. A connection
+// lost during COMMIT is not retried: the save may have landed.
 func (s *Store) tx(ctx context.Context, fn func(pgx.Tx) error) error {
 	ctx, cancel := context.WithTimeout(ctx, opTimeout)
 	defer cancel()
 	for attempt := 1; ; attempt++ {
-		err := pgx.BeginTxFunc(ctx, s.pool, pgx.TxOptions{}, fn)
-		if err == nil || attempt == maxAttempts || !retryable(err) {
+		err, again := s.try(ctx, fn)
+		if err == nil || !again || attempt == maxAttempts {
 			return err
 		}
-		// Jittered exponential backoff: 1, 2, 4 … ms, so that colliding
-		// servers do not collide again in step.
+		// 1, 2, 4 … ms plus jitter, so colliding servers do not collide again.
 		d := time.Duration(1<<(attempt-1)) * time.Millisecond
 		d += rand.N(d)
 		t := time.NewTimer(d)
@@ -198,7 +202,33 @@ func (s *Store) tx(ctx context.Context, fn func(pgx.Tx) error) error {
 	}
 }
 
-// retryable reports whether a failed transaction may simply run again.
+// try runs one attempt of a transaction; again reports whether a failure
+// left nothing committed and may be cured by running it again.
+func (s *Store) try(ctx context.Context, fn func(pgx.Tx) error) (err error, again bool) {
+	conn, err := s.pool.Acquire(ctx)
+	if err != nil {
+		return err, pgconn.SafeToRetry(err)
+	}
+	defer conn.Release()
+	tx, err := conn.Begin(ctx)
+	if err != nil {
+		return err, retryable(err) || conn.Conn().IsClosed()
+	}
+	if err := fn(tx); err != nil {
+		tx.Rollback(ctx)
+		// The transaction cannot have committed: retry if the conflict was
+		// transient or the connection died under it.
+		return err, retryable(err) || (conn.Conn().IsClosed() && ctx.Err() == nil)
+	}
+	if err := tx.Commit(ctx); err != nil {
+		return err, retryable(err)
+	}
+	return nil, false
+}
+
+// retryable reports whether an error says the transaction was refused as
+// a whole and may simply run again: a serialisation failure or deadlock,
+// or a failure before anything reached the server.
 func retryable(err error) bool {
 	var pgErr *pgconn.PgError
 	if errors.As(err, &pgErr) {
