@@ -29,7 +29,10 @@ type pen struct {
 // and as a plain space when both halves quantise to one colour. The mono
 // and braille tiers emit attributes only.
 func (c *Canvas) Lines(t Tier) []string {
-	q := quantiser{tier: t}
+	if c.quant == nil || len(c.quant) > maxQuantCache {
+		c.quant = make(map[quantKey]colorKey)
+	}
+	q := quantiser{tier: t, cache: c.quant}
 	out := make([]string, c.H)
 	ends := make([]int, c.H)
 	// One buffer for every line: a frame is a handful of allocations, not
@@ -180,11 +183,22 @@ func appendColor(p []byte, k colorKey, t Tier, bg bool) []byte {
 	return strconv.AppendUint(p, uint64(k-1), 10)
 }
 
+// quantKey is a colour as quantised for one tier.
+type quantKey struct {
+	tier Tier
+	c    color.RGBA
+}
+
+// maxQuantCache bounds a canvas's colour memory; past it the memory starts
+// over (a canvas draws a few overlay colours, not thousands).
+const maxQuantCache = 1024
+
 // quantiser maps cell colours to keys for one tier. Swatches carry their
-// own quantisation; any other colour is searched once per Lines call.
+// own quantisation; any other colour is searched once and remembered in
+// cache.
 type quantiser struct {
 	tier  Tier
-	cache map[color.RGBA]colorKey
+	cache map[quantKey]colorKey
 }
 
 func (q *quantiser) key(c color.Color) colorKey {
@@ -198,16 +212,15 @@ func (q *quantiser) key(c color.Color) colorKey {
 	if q.tier == TierTrueColor {
 		return keyRGB | colorKey(rgba.R)<<16 | colorKey(rgba.G)<<8 | colorKey(rgba.B)
 	}
-	if k, ok := q.cache[rgba]; ok {
-		return k
+	k := quantKey{q.tier, rgba}
+	if v, ok := q.cache[k]; ok {
+		return v
 	}
-	if q.cache == nil {
-		q.cache = make(map[color.RGBA]colorKey)
+	v := q.swatchKey(NewSwatch(rgba))
+	if q.cache != nil {
+		q.cache[k] = v
 	}
-	sw := NewSwatch(rgba)
-	k := q.swatchKey(sw)
-	q.cache[rgba] = k
-	return k
+	return v
 }
 
 func (q *quantiser) swatchKey(s *Swatch) colorKey {

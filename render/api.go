@@ -73,4 +73,8 @@ type Cell struct {
 type Canvas struct {
 	W, H  int
 	Cells []Cell
+
+	// quant remembers how Lines quantised colours that are not Swatches,
+	// so that overlay colours cost a palette search once per canvas.
+	quant map[quantKey]colorKey
 }

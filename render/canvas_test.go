@@ -349,3 +349,44 @@ func TestWritePNG(t *testing.T) {
 		t.Errorf("braille dot 1 not drawn: %v", img.At(2*pngCellW+1, 1))
 	}
 }
+
+// Text is where names and comments from files reach the screen: whatever
+// the string, the line written must hold no control character, C0 or C1
+// (ECMA-48), so it cannot move the cursor or start an escape sequence.
+func FuzzCanvasText(f *testing.F) {
+	for _, s := range []string{"scanner ada", "\x1b]0;title\x07", "\x9b31m", "事象\u200d\u0301x", "\r\n\t", "\xff\xfe"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		c := NewCanvas(20, 1)
+		c.Text(0, 0, s, nil, nil, 0)
+		for _, line := range c.Lines(TierMono) {
+			for _, r := range line {
+				if r < ' ' || (r >= 0x7f && r < 0xa0) {
+					t.Fatalf("Text(%q) wrote control %U: %q", s, r, line)
+				}
+			}
+			if w := len([]rune(line)); w > 20 {
+				t.Fatalf("Text(%q) wrote %d runes into 20 cells", s, w)
+			}
+		}
+	})
+}
+
+// Overlay colours that are not Swatches are searched once per canvas and
+// drawn the same every time.
+func TestLinesOverlayColours(t *testing.T) {
+	c := NewCanvas(4, 1)
+	pink := color.RGBA{0xff, 0x9c, 0xf5, 0xff}
+	c.Text(0, 0, "ab", pink, nil, 0)
+	first := c.Lines(Tier256)[0]
+	if want := "\x1b[38;5;" + itoa(NewSwatch(pink).Index(Tier256)) + "mab  \x1b[m"; first != want {
+		t.Errorf("overlay line %q, want %q", first, want)
+	}
+	if again := c.Lines(Tier256)[0]; again != first {
+		t.Errorf("second Lines %q differs from first %q", again, first)
+	}
+	if len(c.quant) != 1 {
+		t.Errorf("canvas remembers %d quantised colours, want 1", len(c.quant))
+	}
+}

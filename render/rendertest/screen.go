@@ -56,7 +56,10 @@ func (s *Screen) At(x, y int) Cell {
 	cells, w, _ := s.sim.GetContents()
 	sc := cells[y*w+x]
 	fg, bg, attr := sc.Style.Decompose()
-	r, _ := utf8.DecodeRune(sc.Bytes)
+	r := ' ' // a cell never written shows blank
+	if len(sc.Bytes) > 0 {
+		r, _ = utf8.DecodeRune(sc.Bytes)
+	}
 	return Cell{Rune: r, FG: fg, BG: bg, Attr: attr}
 }
 
