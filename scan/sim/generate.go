@@ -229,8 +229,14 @@ func (g *generator) emit(k kind, pdg int, pos, dir vec, ke float64, parent int, 
 	g.tr.drain()
 	p := &g.truth.Particles[id-1]
 	p.End, p.Stopped = end, stopped && g.vol.contains(end)
-	if k == kMuon && p.Stopped && (pdg == -13 || g.r.Float64() < muMinusDecay) {
+	switch {
+	case k == kMuon && p.Stopped && (pdg == -13 || g.r.Float64() < muMinusDecay):
 		g.michel(end, id, t0Us, origin)
+	case k == kPion && p.Stopped && pdg == 211:
+		// π⁺ → μ⁺ν at rest: the muon gets (m_π − m_μ)²/(2m_π) = 4.12 MeV
+		// (range ≈ 1.5 mm) and then decays; a stopped π⁻ is captured
+		// (its nuclear break-up is not simulated).
+		g.emit(kMuon, -13, end, isotropic(g.r), (massPi-massMu)*(massPi-massMu)/(2*massPi), id, t0Us, origin)
 	}
 	return id
 }

@@ -104,6 +104,17 @@ func checkClassContents(t *testing.T, tr *Truth) {
 		if p.ID < 1 || p.ID > len(tr.Particles) || p.Parent >= p.ID {
 			t.Errorf("%s: particle %d has parent %d", tr.Event, p.ID, p.Parent)
 		}
+		if p.Parent > 0 {
+			parent := tr.Particles[p.Parent-1]
+			// Children: π0 photons, decay muons of stopped π⁺ (4.12 MeV,
+			// PDG masses), Michel electrons (≤ 52.83 MeV) of stopped muons.
+			ok := parent.Type == "pi0" && p.Type == "photon" ||
+				parent.Type == "pion" && parent.Stopped && p.Type == "muon" && math.Abs(p.KEMeV-4.12) < 0.01 ||
+				parent.Type == "muon" && parent.Stopped && p.Type == "electron" && p.KEMeV <= 52.83
+			if !ok {
+				t.Errorf("%s: %s (%.2f MeV) cannot come from %s", tr.Event, p.Type, p.KEMeV, parent.Type)
+			}
+		}
 	}
 	want := map[string]map[string]int{
 		ClassNumuCC:  {"muon": 1, "electron": 0, "pi0": 0},
