@@ -79,8 +79,11 @@ func Open(dir string) (*Dataset, error) {
 	defer root.Close()
 	name := filepath.Join(dir, ManifestName)
 	f, err := root.Open(ManifestName)
+	if errors.Is(err, fs.ErrNotExist) {
+		return nil, fmt.Errorf("open dataset %s: the folder has no %s manifest", dir, ManifestName)
+	}
 	if err != nil {
-		return nil, fmt.Errorf("open dataset %s: %w", dir, err)
+		return nil, fmt.Errorf("open dataset %s: %w", dir, explainOpen(err))
 	}
 	defer f.Close()
 	det, entries, err := parseManifest(f, name, func(rel string) (*detector.Detector, error) {

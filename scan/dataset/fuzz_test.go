@@ -61,7 +61,7 @@ func FuzzNPZ(f *testing.F) {
 		}
 		l := &loader{det: det, e: &eventEntry{ID: "z"}}
 		ev := &scan.Event{ID: "z", Detector: det}
-		if err := l.readNPZ(z, ev); err != nil {
+		if err := l.readNPZ(z, int64(len(b)), ev); err != nil {
 			return
 		}
 		if err := ev.Validate(); err != nil {

@@ -124,7 +124,7 @@ func TestNPZSizeLie(t *testing.T) {
 	}
 	f := zr.File[0]
 	f.UncompressedSize64 = f.CompressedSize64*2000 + 1<<20
-	if _, err := npzMember(zr, "coll"); err == nil || !strings.Contains(err.Error(), "more than deflate can expand") {
+	if _, err := npzMember(zr, int64(len(z)), "coll"); err == nil || !strings.Contains(err.Error(), "more than deflate can expand") {
 		t.Errorf("err = %v", err)
 	}
 }
@@ -223,5 +223,20 @@ func TestWriterRejects(t *testing.T) {
 	}
 	if err := w.Add(testEvent(det, "late", 4), nil); err == nil || !strings.Contains(err.Error(), "closed") {
 		t.Errorf("Add after Close: %v", err)
+	}
+}
+
+// TestNPZStoredLie: a stored member claiming more bytes than the archive
+// holds is refused before its header is read.
+func TestNPZStoredLie(t *testing.T) {
+	z := npzOf(t, map[string][]byte{"coll.npy": npyOf(t, 20, 8, 3)}, zip.Store)
+	zr, err := zip.NewReader(bytes.NewReader(z), int64(len(z)))
+	if err != nil {
+		t.Fatal(err)
+	}
+	zr.File[0].CompressedSize64 = 1 << 30
+	zr.File[0].UncompressedSize64 = 1 << 30
+	if _, err := npzMember(zr, int64(len(z)), "coll"); err == nil || !strings.Contains(err.Error(), "more than the archive holds") {
+		t.Errorf("err = %v", err)
 	}
 }

@@ -123,3 +123,13 @@ func BenchmarkOpen10000(b *testing.B) {
 		}
 	}
 }
+
+func TestOpenNoManifest(t *testing.T) {
+	dir := t.TempDir()
+	if _, err := Open(dir); err == nil || !strings.Contains(err.Error(), "has no tpcscan.toml manifest") {
+		t.Errorf("err = %v", err)
+	}
+	if _, err := Open(filepath.Join(dir, "missing")); err == nil {
+		t.Error("Open of a missing folder succeeded")
+	}
+}

@@ -18,8 +18,9 @@ import (
 // about its size, and we must not allocate for it.
 const maxDeflateRatio = 1032
 
-// npzMember finds a member and checks its declared sizes.
-func npzMember(z *zip.Reader, array string) (*zip.File, error) {
+// npzMember finds a member and checks its declared sizes against each
+// other and against the archive's size.
+func npzMember(z *zip.Reader, size int64, array string) (*zip.File, error) {
 	name := array + ".npy"
 	var found *zip.File
 	for _, f := range z.File {
@@ -34,6 +35,9 @@ func npzMember(z *zip.Reader, array string) (*zip.File, error) {
 		return nil, nil
 	}
 	u, c := found.UncompressedSize64, found.CompressedSize64
+	if off, err := found.DataOffset(); err != nil || off < 0 || c > uint64(size-off) {
+		return nil, fmt.Errorf("npz member %s: claims %d compressed bytes, more than the archive holds", name, c)
+	}
 	switch found.Method {
 	case zip.Store:
 		if u != c {
@@ -73,15 +77,15 @@ func (l *loader) npzPlanes(ev *scan.Event) error {
 	if err != nil {
 		return l.fail(rel, fmt.Errorf("not a readable .npz (zip) file: %w", err))
 	}
-	if err := l.readNPZ(z, ev); err != nil {
+	if err := l.readNPZ(z, st.Size(), ev); err != nil {
 		return l.fail(rel, err)
 	}
 	return nil
 }
 
-func (l *loader) readNPZ(z *zip.Reader, ev *scan.Event) error {
+func (l *loader) readNPZ(z *zip.Reader, size int64, ev *scan.Event) error {
 	for i, p := range l.det.Planes {
-		m, err := npzMember(z, string(p.Role))
+		m, err := npzMember(z, size, string(p.Role))
 		if err != nil {
 			return err
 		}
@@ -101,7 +105,7 @@ func (l *loader) readNPZ(z *zip.Reader, ev *scan.Event) error {
 	}
 	for i, p := range l.det.Planes {
 		name := string(p.Role) + "_truth"
-		m, err := npzMember(z, name)
+		m, err := npzMember(z, size, name)
 		if err != nil {
 			return err
 		}

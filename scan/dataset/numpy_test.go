@@ -85,7 +85,11 @@ func TestNumPyNPZ(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		m, err := npzMember(&z.Reader, "coll")
+		st, err := os.Stat(filepath.Join("testdata", "numpy", name))
+		if err != nil {
+			t.Fatal(err)
+		}
+		m, err := npzMember(&z.Reader, st.Size(), "coll")
 		if err != nil || m == nil {
 			t.Fatalf("%s: member coll: %v", name, err)
 		}
@@ -103,7 +107,7 @@ func TestNumPyNPZ(t *testing.T) {
 			t.Errorf("%s: %v, %v", name, v, err)
 		}
 		if name == "savez.npz" {
-			tm, err := npzMember(&z.Reader, "coll_truth")
+			tm, err := npzMember(&z.Reader, st.Size(), "coll_truth")
 			if err != nil || tm == nil {
 				t.Fatalf("coll_truth: %v", err)
 			}
