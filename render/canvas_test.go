@@ -390,3 +390,11 @@ func TestLinesOverlayColours(t *testing.T) {
 		t.Errorf("canvas remembers %d quantised colours, want 1", len(c.quant))
 	}
 }
+
+func TestASCIIGlyph(t *testing.T) {
+	for in, want := range map[rune]string{'a': "a", '→': ">", '←': "<", '↑': "^", '↓': "v", '×': "x", 'ν': "v", '✗': "x", '事': "\ufffd"} {
+		if got := asciiGlyph(in); got != want {
+			t.Errorf("asciiGlyph(%q) = %q, want %q", in, got, want)
+		}
+	}
+}

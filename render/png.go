@@ -7,6 +7,8 @@ import (
 	"image/draw"
 	"image/png"
 	"io"
+	"strings"
+	"unicode/utf8"
 
 	"golang.org/x/image/font"
 	"golang.org/x/image/font/basicfont"
@@ -113,12 +115,13 @@ func drawGlyph(img *image.RGBA, d *font.Drawer, r image.Rectangle, cell Cell, fg
 			fill(mx, my, mx+1, pngCellH)
 		}
 	default:
+		g := asciiGlyph(ch)
 		d.Src = ink
 		d.Dot = fixed.P(r.Min.X+1, r.Min.Y+12)
-		d.DrawString(string(ch))
+		d.DrawString(g)
 		if cell.Attr&AttrBold != 0 { // overstrike one pixel right
 			d.Dot = fixed.P(r.Min.X+2, r.Min.Y+12)
-			d.DrawString(string(ch))
+			d.DrawString(g)
 		}
 	}
 	if cell.Attr&AttrUnderline != 0 {
@@ -163,3 +166,21 @@ func boxArms(r rune) int {
 	}
 	return 0
 }
+
+// asciiGlyph returns what the snapshot font (ASCII only) draws for a rune:
+// the rune itself, a look-alike for common symbols, or U+FFFD.
+func asciiGlyph(r rune) string {
+	if r >= ' ' && r < 0x7f {
+		return string(r)
+	}
+	if i := strings.IndexRune(glyphFrom, r); i >= 0 {
+		return string(glyphTo[utf8.RuneCountInString(glyphFrom[:i])])
+	}
+	return "\ufffd"
+}
+
+// Look-alikes for symbols a scanning screen uses, position by position.
+const (
+	glyphFrom = "·•●○◆◇×°μνπ±–—→←↑↓▸▶◂◀≤≥…✓✗"
+	glyphTo   = "..oo**xouvp+--><^v>><<<>~vx"
+)
