@@ -206,9 +206,9 @@ func (s *Server) Serve(ctx context.Context, ln net.Listener) error {
 	return err
 }
 
-// Shutdown stops accepting connections, asks every session to save and
-// quit (their scanners see why), waits for them, then closes connections.
-// Past ctx's deadline it closes everything at once.
+// Shutdown refuses new sessions, asks every session to save and quit
+// (their scanners see why), waits for them, then closes the listener and
+// every connection. Past ctx's deadline it closes everything at once.
 func (s *Server) Shutdown(ctx context.Context) error {
 	s.mu.Lock()
 	s.closing = true
@@ -228,11 +228,11 @@ func (s *Server) Shutdown(ctx context.Context) error {
 			return fmt.Errorf("shutdown: sessions still saving: %w", ctx.Err())
 		}
 	}
-	if err := s.ssh.Shutdown(ctx); err != nil {
-		s.ssh.Close()
-		if !errors.Is(err, ssh.ErrServerClosed) {
-			return fmt.Errorf("shutdown: %w", err)
-		}
+	// Every model has saved and every scanner has been told: what is left
+	// are idle or half-open connections, closed without waiting.
+	err := s.ssh.Close()
+	if err != nil && !errors.Is(err, ssh.ErrServerClosed) && !errors.Is(err, net.ErrClosed) {
+		return fmt.Errorf("shutdown: %w", err)
 	}
 	s.log.Info("shut down")
 	return nil

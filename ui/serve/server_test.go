@@ -219,7 +219,10 @@ func (s *stream) waitFor(want string, d time.Duration) error {
 		if i >= 0 {
 			s.cursor += i + len(want)
 		}
-		grew, tail := s.grew, s.buf.Bytes()[max(0, s.buf.Len()-400):]
+		grew, tail := s.grew, s.buf.Bytes()[max(0, s.buf.Len()-300):]
+		if j := bytes.LastIndex(s.buf.Bytes(), []byte("stand-in")); j >= 0 {
+			tail = s.buf.Bytes()[j:min(s.buf.Len(), j+300)] // the stand-in's status line
+		}
 		s.mu.Unlock()
 		if i >= 0 {
 			return nil

@@ -162,6 +162,7 @@ func (m *standin) key(k string) tea.Cmd {
 		m.zoom++
 	case k == "s" && m.pass.Label.Class != "":
 		m.pass.Label.Comment = "submitted by " + m.sess.Scanner
+		m.pass.Label.Confidence = m.schema.Confidence[len(m.schema.Confidence)-1].Key
 		return m.save(scan.PassSubmitted, m.load)
 	}
 	return nil
