@@ -7,7 +7,9 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"runtime"
 	"sort"
+	"sync"
 )
 
 // Problem is one thing wrong with a dataset.
@@ -80,52 +82,118 @@ func Check(ctx context.Context, dir string, progress func(done, total int)) Repo
 		return r
 	}
 	defer root.Close()
-	for i, info := range events {
-		if err := ctx.Err(); err != nil {
-			r.Problems = append(r.Problems, Problem{Msg: fmt.Sprintf("check interrupted after %d of %d events: %v", i, len(events), err)})
-			return r
-		}
-		r.checkEvent(d, root, info)
-		if progress != nil {
-			progress(i+1, len(events))
-		}
-	}
+	r.checkEvents(ctx, d, root, progress)
 	return r
 }
 
-func (r *Report) checkEvent(d *Dataset, root *os.Root, info EventInfo) {
-	r.Sources[info.Source]++
-	for _, f := range info.Files {
-		if st, err := root.Stat(filepath.FromSlash(f)); err == nil {
-			r.Bytes += st.Size()
-		}
+// checkEvents reads the events on a few goroutines (one per core, at most
+// four: each holds a whole event in memory) and merges their results in
+// manifest order, so that the report and the progress calls are
+// deterministic.
+func (r *Report) checkEvents(ctx context.Context, d *Dataset, root *os.Root, progress func(done, total int)) {
+	events := d.Events()
+	n := len(events)
+	results := make([]eventResult, n)
+	done := make([]chan struct{}, n)
+	for i := range done {
+		done[i] = make(chan struct{})
 	}
-	ev, err := d.Load(info.ID)
-	if err != nil {
-		r.addErr(err)
-	} else {
-		r.Loaded++
-		for _, m := range ev.Planes {
-			r.Samples += int64(len(m.Pix))
-		}
-		for _, t := range ev.Truth {
-			if t != nil {
-				r.PixelTruth++
-				break
+	jobs := make(chan int)
+	stop := make(chan struct{})
+	var wg sync.WaitGroup
+	defer wg.Wait()
+	defer close(stop)
+	go func() {
+		defer close(jobs)
+		for i := range n {
+			select {
+			case jobs <- i:
+			case <-stop:
+				return
 			}
 		}
+	}()
+	for range min(runtime.GOMAXPROCS(0), 4, max(n, 1)) {
+		wg.Go(func() {
+			for i := range jobs {
+				results[i] = checkEvent(d, root, events[i])
+				close(done[i])
+			}
+		})
 	}
-	if !info.HasTruth {
-		return
+	for i := range n {
+		if err := ctx.Err(); err != nil {
+			r.Problems = append(r.Problems, Problem{Msg: fmt.Sprintf("check interrupted after %d of %d events: %v", i, n, err)})
+			return
+		}
+		select {
+		case <-done[i]:
+		case <-ctx.Done():
+			r.Problems = append(r.Problems, Problem{Msg: fmt.Sprintf("check interrupted after %d of %d events: %v", i, n, ctx.Err())})
+			return
+		}
+		r.merge(events[i], &results[i])
+		results[i] = eventResult{}
+		if progress != nil {
+			progress(i+1, n)
+		}
 	}
-	r.Truth++
-	js, err := d.TruthJSON(info.ID)
-	switch {
-	case err != nil:
-		r.addErr(err)
-	case !json.Valid(js):
-		r.Problems = append(r.Problems, Problem{Event: info.ID, File: info.entry.Truth, Msg: "truth file is not valid JSON"})
+}
+
+// eventResult is what checking one event found.
+type eventResult struct {
+	bytes, samples     int64
+	loaded, pixelTruth bool
+	problems           []Problem
+}
+
+func (r *Report) merge(info EventInfo, res *eventResult) {
+	r.Sources[info.Source]++
+	if info.HasTruth {
+		r.Truth++
 	}
+	r.Bytes += res.bytes
+	r.Samples += res.samples
+	if res.loaded {
+		r.Loaded++
+	}
+	if res.pixelTruth {
+		r.PixelTruth++
+	}
+	r.Problems = append(r.Problems, res.problems...)
+}
+
+func checkEvent(d *Dataset, root *os.Root, info EventInfo) eventResult {
+	var res eventResult
+	for _, f := range info.Files {
+		if st, err := root.Stat(filepath.FromSlash(f)); err == nil {
+			res.bytes += st.Size()
+		}
+	}
+	var sub Report
+	ev, err := d.Load(info.ID)
+	if err != nil {
+		sub.addErr(err)
+	} else {
+		res.loaded = true
+		for _, m := range ev.Planes {
+			res.samples += int64(len(m.Pix))
+		}
+		for _, t := range ev.Truth {
+			res.pixelTruth = res.pixelTruth || t != nil
+		}
+	}
+	if info.HasTruth {
+		js, err := d.TruthJSON(info.ID)
+		switch {
+		case err != nil:
+			sub.addErr(err)
+		case !json.Valid(js):
+			sub.Problems = append(sub.Problems, Problem{Event: info.ID, File: info.entry.Truth, Msg: "truth file is not valid JSON"})
+		}
+	}
+	res.problems = sub.Problems
+	return res
 }
 
 // addErr turns an error into problems, one per manifest problem.
