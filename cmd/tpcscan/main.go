@@ -39,7 +39,9 @@ func commands() []command {
 		efficiencyCommand(),
 		consensusCommand(),
 		demoScanCommand(),
+		reportCommand(),
 		demoCommand(),
+		campaignCommand(),
 	}
 }
 
