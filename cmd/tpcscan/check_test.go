@@ -6,6 +6,8 @@ import (
 	"path/filepath"
 	"strings"
 	"testing"
+
+	"github.com/charmbracelet/x/exp/golden"
 )
 
 func runForTest(t *testing.T, args ...string) (string, error) {
@@ -36,5 +38,17 @@ func TestCheckCommand(t *testing.T) {
 	}
 	if _, err := runForTest(t, "check"); err == nil {
 		t.Error("check without a folder succeeded")
+	}
+}
+
+// TestCheckGolden pins the summary screens of a clean and a broken dataset
+// (update with go test ./cmd/tpcscan -run TestCheckGolden -update).
+func TestCheckGolden(t *testing.T) {
+	root := filepath.Join("..", "..", "testdata", "datasets")
+	for _, name := range []string{"valid", "broken-duplicate-id", "broken-symlink"} {
+		t.Run(name, func(t *testing.T) {
+			out, _ := runForTest(t, "check", filepath.Join(root, name))
+			golden.RequireEqual(t, out)
+		})
 	}
 }
