@@ -33,12 +33,13 @@ func (c *Canvas) Lines(t Tier) []string {
 		c.quant = make(map[quantKey]colorKey)
 	}
 	q := quantiser{tier: t, cache: c.quant}
-	out := make([]string, c.H)
-	ends := make([]int, c.H)
+	h := c.rows()
+	out := make([]string, h)
+	ends := make([]int, h)
 	// One buffer for every line: a frame is a handful of allocations, not
 	// one per line or per escape sequence.
-	buf := make([]byte, 0, c.W*c.H*4)
-	for y := range c.H {
+	buf := make([]byte, 0, max(c.W, 0)*h*4)
+	for y := range h {
 		var cur pen
 		for _, cell := range c.Cells[y*c.W : (y+1)*c.W] {
 			r := cell.Rune

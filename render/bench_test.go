@@ -145,3 +145,12 @@ func totalSamples(planes []*scan.Image) int {
 	}
 	return n
 }
+
+// BenchmarkAutoRange is the per-plane cost of the automatic colour range,
+// paid once per event beside the pyramid.
+func BenchmarkAutoRange(b *testing.B) {
+	img := synthPlane(2000, tarnTicks, 1)
+	for b.Loop() {
+		AutoRange(img, DefaultLoPct, DefaultHiPct)
+	}
+}

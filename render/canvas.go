@@ -50,7 +50,21 @@ func (c *Canvas) Clear() {
 	}
 }
 
-func (c *Canvas) in(x, y int) bool { return x >= 0 && y >= 0 && x < c.W && y < c.H }
+func (c *Canvas) in(x, y int) bool {
+	return x >= 0 && y >= 0 && x < c.W && y < c.H && y*c.W+x < len(c.Cells)
+}
+
+// rows is how many whole rows Cells holds (H, unless a caller built a
+// Canvas by hand with too few cells).
+func (c *Canvas) rows() int {
+	switch {
+	case c.W < 0:
+		return 0
+	case c.W == 0:
+		return max(c.H, 0)
+	}
+	return max(min(c.H, len(c.Cells)/c.W), 0)
+}
 
 // Set writes a cell; outside the canvas it does nothing.
 func (c *Canvas) Set(x, y int, cell Cell) {
@@ -94,7 +108,7 @@ func (c *Canvas) Text(x, y int, s string, fg, bg color.Color, a Attr) int {
 
 // Fill sets every cell of the w×h box at (x, y) to cell, clipped.
 func (c *Canvas) Fill(x, y, w, h int, cell Cell) {
-	for j := max(y, 0); j < min(y+h, c.H); j++ {
+	for j := max(y, 0); j < min(y+h, c.rows()); j++ {
 		for i := max(x, 0); i < min(x+w, c.W); i++ {
 			c.Cells[j*c.W+i] = cell
 		}
@@ -113,7 +127,7 @@ func Paint(c *Canvas, x, y int, g *Grid, s Scale, r Range, t Tier) {
 	px, py := PixelsPerCell(t)
 	cols, rows := g.W/px, g.H/py
 	x0, y0 := max(x, 0), max(y, 0)
-	x1, y1 := min(x+cols, c.W), min(y+rows, c.H)
+	x1, y1 := min(x+cols, c.W), min(y+rows, c.rows())
 	if x0 >= x1 || y0 >= y1 {
 		return
 	}

@@ -398,3 +398,20 @@ func TestASCIIGlyph(t *testing.T) {
 		}
 	}
 }
+
+func TestHandBuiltCanvasTooFewCells(t *testing.T) {
+	c := &Canvas{W: 4, H: 3, Cells: make([]Cell, 5)}
+	c.Set(3, 2, Cell{Rune: 'x'})
+	c.Text(0, 2, "abc", nil, nil, 0)
+	Paint(c, 0, 0, &Grid{W: 4, H: 6, Pix: make([]float32, 24)}, Scale{}, Range{0, 1, false}, Tier256)
+	if n := len(c.Lines(Tier256)); n != 1 {
+		t.Errorf("Lines wrote %d rows from one whole row of cells", n)
+	}
+	if err := c.WritePNG(&bytes.Buffer{}); err != nil {
+		t.Errorf("WritePNG: %v", err)
+	}
+	neg := &Canvas{W: -2, H: 3}
+	if n := len(neg.Lines(Tier16)); n != 0 {
+		t.Errorf("negative width: %d rows", n)
+	}
+}

@@ -58,8 +58,12 @@ const (
 // autoSamples bounds the strided sample used for the noise estimate.
 const autoSamples = 1 << 16
 
-// autoAbove bounds how many samples above the low end are sorted.
-const autoAbove = 1 << 20
+// autoAbove bounds how many samples above the low end are sorted, and
+// aboveStride is how densely they are looked for.
+const (
+	autoAbove   = 1 << 18
+	aboveStride = 3
+)
 
 // AutoRange picks a linear range from charge percentiles of the image (e.g.
 // DefaultLoPct and DefaultHiPct). The low end is the loPct percentile of
@@ -80,24 +84,18 @@ func AutoRange(img *scan.Image, loPct, hiPct float64) Range {
 	if math.IsNaN(lo) || math.IsInf(lo, 0) {
 		lo = 0
 	}
-	// Charge is sparse, so the high end comes from every sample above the
-	// low end, not from the strided sample.
+	// Charge is sparse, so the high end comes from a dense sample (every
+	// third sample: a track along one wire or one tick still gives a third
+	// of its samples), not from the noise sample.
 	lo32 := float32(lo)
-	count := 0
-	for _, v := range img.Pix {
-		if v > lo32 {
-			count++
+	var above []float32
+	for i := 0; i < len(img.Pix); i += aboveStride {
+		if v := img.Pix[i]; v > lo32 && !math.IsInf(float64(v), 1) {
+			above = append(above, v)
 		}
 	}
-	keep := max(1, count/autoAbove) // keep every keep-th, to bound the sort
-	above := make([]float32, 0, count/keep+1)
-	for _, v := range img.Pix {
-		if v > lo32 {
-			if count%keep == 0 {
-				above = append(above, v)
-			}
-			count--
-		}
+	if len(above) > autoAbove { // bound the sort
+		above = strided(above, autoAbove)
 	}
 	slices.Sort(above)
 	hi := percentile(above, hiPct)

@@ -32,7 +32,7 @@ func pngDefaults() (fg, bg color.RGBA) {
 // colours; half blocks, full blocks, braille and box-drawing lines are
 // drawn as shapes, other text with a small bitmap font.
 func (c *Canvas) WritePNG(w io.Writer) error {
-	if c.W <= 0 || c.H <= 0 {
+	if c.W <= 0 || c.rows() <= 0 {
 		return fmt.Errorf("write png: empty %d×%d canvas", c.W, c.H)
 	}
 	img := c.Image()
@@ -44,9 +44,10 @@ func (c *Canvas) WritePNG(w io.Writer) error {
 
 // Image draws the canvas as an RGBA image, 8×16 pixels per cell.
 func (c *Canvas) Image() *image.RGBA {
-	img := image.NewRGBA(image.Rect(0, 0, c.W*pngCellW, c.H*pngCellH))
+	h := c.rows()
+	img := image.NewRGBA(image.Rect(0, 0, max(c.W, 0)*pngCellW, h*pngCellH))
 	d := &font.Drawer{Dst: img, Face: basicfont.Face7x13}
-	for y := range c.H {
+	for y := range h {
 		for x := range c.W {
 			cell := c.Cells[y*c.W+x]
 			if cell.Rune == wideTail {
