@@ -61,6 +61,11 @@ func TestWriterRoundTrip(t *testing.T) {
 	for _, m := range b.Planes {
 		m.Tick0 = 40
 	}
+	// Collection wires 5–14 only: the writer must record wire0 = 5.
+	crop := scan.NewImage(10, 16)
+	crop.Wire0, crop.Tick0 = 5, 40
+	crop.Set(9, 15, 77)
+	b.Planes[2] = crop
 	if err := w.Add(b, nil); err != nil {
 		t.Fatal(err)
 	}
@@ -109,6 +114,9 @@ func TestWriterRoundTrip(t *testing.T) {
 	}
 	if g2.Planes[1].Tick0 != 40 || g2.Planes[1].Ticks != 16 {
 		t.Errorf("crop offsets lost: tick0 %d ticks %d", g2.Planes[1].Tick0, g2.Planes[1].Ticks)
+	}
+	if c := g2.Planes[2]; c.Wire0 != 5 || c.Wires != 10 || c.At(9, 15) != 77 {
+		t.Errorf("wire crop lost: wire0 %d wires %d", c.Wire0, c.Wires)
 	}
 	if _, err := Create(dir, det); err == nil {
 		t.Error("Create over an existing dataset succeeded")
