@@ -88,6 +88,13 @@ var fixtures = []fixture{
 		func(dir string) error { return os.Remove(filepath.Join(dir, "e1/ind2.npy")) }},
 	{"broken-unknown-key", "an event has the key \"plane\" (a typo for planes)", `unknown key "events.plane"`,
 		func(dir string) error { return editManifest(dir, "\nplanes = {", "\nplane = \"x\"\nplanes = {") }},
+	{"broken-truth-json", "e1's truth file e1/truth.json is not valid JSON (cut off)", "e1/truth.json: truth file is not valid JSON",
+		func(dir string) error {
+			if err := os.WriteFile(filepath.Join(dir, "e1/truth.json"), []byte(`{"class": "numu_cc", "vertex_cm": [2.5,`), 0o644); err != nil {
+				return err
+			}
+			return editManifest(dir, "\nplanes = {", "\ntruth = \"e1/truth.json\"\nplanes = {")
+		}},
 	{"broken-crop-outside", "e1's planes start at tick0 60 but the readout has ticks 0–63 only", "covers ticks 60–67",
 		func(dir string) error {
 			return editManifest(dir, "\nplanes = {", "\ntick0 = { ind1 = 60, ind2 = 60, coll = 60 }\nplanes = {")
