@@ -53,6 +53,24 @@ type info struct {
 	roster   []string
 }
 
+// info returns the campaign facts the write paths need, cached.
+func (s *Store) info(ctx context.Context, tx pgx.Tx, campaignID int64) (info, error) {
+	s.mu.Lock()
+	ci, ok := s.infos[campaignID]
+	s.mu.Unlock()
+	if ok {
+		return ci, nil
+	}
+	ci, err := readInfo(ctx, tx, campaignID)
+	if err != nil {
+		return ci, err
+	}
+	s.mu.Lock()
+	s.infos[campaignID] = ci
+	s.mu.Unlock()
+	return ci, nil
+}
+
 func readInfo(ctx context.Context, tx pgx.Tx, campaignID int64) (info, error) {
 	var ci info
 	var roster, schema []byte
@@ -89,7 +107,7 @@ func (s *Store) NextPass(ctx context.Context, campaignID int64, scanner string) 
 	}
 	var p scan.Pass
 	err := s.tx(ctx, func(tx pgx.Tx) error {
-		ci, err := readInfo(ctx, tx, campaignID)
+		ci, err := s.info(ctx, tx, campaignID)
 		if err != nil {
 			return err
 		}
@@ -108,14 +126,11 @@ func (s *Store) NextPass(ctx context.Context, campaignID int64, scanner string) 
 		if err != nil {
 			return err
 		}
-		var id int64
+		p = scan.Pass{CampaignID: campaignID, EventID: eventID, Scanner: scanner, Round: round, State: scan.PassAssigned}
 		err = tx.QueryRow(ctx, `INSERT INTO passes (campaign_id, event_id, scanner, round, state, assigned, updated)
-			VALUES ($1, $2, $3, $4, 'assigned', clock_timestamp(), clock_timestamp()) RETURNING id`,
-			campaignID, eventID, scanner, round).Scan(&id)
-		if err != nil {
-			return err
-		}
-		p, err = scanPass(tx.QueryRow(ctx, passFrom+"WHERE p.id = $1", id))
+			VALUES ($1, $2, $3, $4, 'assigned', clock_timestamp(), clock_timestamp()) RETURNING id, assigned`,
+			campaignID, eventID, scanner, round).Scan(&p.ID, &p.Assigned)
+		p.Updated = p.Assigned
 		return err
 	})
 	if err != nil {
@@ -127,11 +142,14 @@ func (s *Store) NextPass(ctx context.Context, campaignID int64, scanner string) 
 // takeEvent locks the next event for the scanner, counts the pass as
 // taken and returns the event and the round of the new pass.
 func takeEvent(ctx context.Context, tx pgx.Tx, campaignID int64, scanner string, ci info) (string, int, error) {
-	const q = `SELECT event_id, taken, extra_round FROM events e
-		WHERE e.campaign_id = $1 AND e.taken < e.needed AND %s
-		AND NOT EXISTS (SELECT 1 FROM passes p
-			WHERE p.campaign_id = $1 AND p.event_id = e.event_id AND p.scanner = $2)
-		ORDER BY e.pos LIMIT 1 FOR UPDATE SKIP LOCKED`
+	const q = `UPDATE events u SET taken = u.taken + 1
+		FROM (SELECT e.event_id FROM events e
+			WHERE e.campaign_id = $1 AND e.taken < e.needed AND %s
+			AND NOT EXISTS (SELECT 1 FROM passes p
+				WHERE p.campaign_id = $1 AND p.event_id = e.event_id AND p.scanner = $2)
+			ORDER BY e.pos LIMIT 1 FOR UPDATE SKIP LOCKED) next
+		WHERE u.campaign_id = $1 AND u.event_id = next.event_id
+		RETURNING u.event_id, u.taken - 1, u.extra_round`
 	start := campaign.StartOffset(ci.seed, scanner, ci.nEvents)
 	// Extra-round events first, then the ring from the offset to its end,
 	// then from its start: each one seek on a partial index.
@@ -143,10 +161,6 @@ func takeEvent(ctx context.Context, tx pgx.Tx, campaignID int64, scanner string,
 			continue
 		}
 		if err != nil {
-			return "", 0, err
-		}
-		if _, err := tx.Exec(ctx, "UPDATE events SET taken = taken + 1 WHERE campaign_id = $1 AND event_id = $2",
-			campaignID, id); err != nil {
 			return "", 0, err
 		}
 		round := 1
@@ -259,7 +273,7 @@ func (s *Store) SaveRevision(ctx context.Context, passID int64, scanner string, 
 		if owner != scanner {
 			return fmt.Errorf("pass belongs to %q, not %q: %w", owner, scanner, store.ErrConflict)
 		}
-		ci, err := readInfo(ctx, tx, campaignID)
+		ci, err := s.info(ctx, tx, campaignID)
 		if err != nil {
 			return err
 		}
@@ -270,22 +284,21 @@ func (s *Store) SaveRevision(ctx context.Context, passID int64, scanner string, 
 		if err := checkRevision(ci, rev); err != nil {
 			return fmt.Errorf("event %s: %w", eventID, err)
 		}
-		if rev.State != scan.PassDraft || prev == string(scan.PassSkipped) {
-			// Lock the event before reading its other passes (adaptive rule).
+		if adaptiveCheck(ci, round, scan.PassState(prev), rev.State) {
+			// Lock the event before reading its other passes, so that two
+			// last submissions racing each other see one another.
 			if _, err := tx.Exec(ctx, "SELECT 1 FROM events WHERE campaign_id = $1 AND event_id = $2 FOR UPDATE",
 				campaignID, eventID); err != nil {
 				return err
 			}
 		}
 		out = scan.Revision{PassID: passID, Seq: seq + 1, State: rev.State, Label: rev.Label, Seconds: rev.Seconds, Schema: ci.schema.Version}
-		err = tx.QueryRow(ctx, `INSERT INTO revisions (pass_id, seq, state, label, seconds, at, schema_version)
-			VALUES ($1, $2, $3, $4, $5, clock_timestamp(), $6) RETURNING id, at`,
+		err = tx.QueryRow(ctx, `WITH r AS (
+				INSERT INTO revisions (pass_id, seq, state, label, seconds, at, schema_version)
+				VALUES ($1, $2, $3, $4, $5, clock_timestamp(), $6) RETURNING id, at)
+			UPDATE passes SET state = $3, latest_revision = r.id, seconds = seconds + $5, revisions = $2, updated = r.at
+			FROM r WHERE passes.id = $1 RETURNING r.id, r.at`,
 			passID, out.Seq, string(rev.State), label, rev.Seconds, out.Schema).Scan(&out.ID, &out.At)
-		if err != nil {
-			return err
-		}
-		_, err = tx.Exec(ctx, `UPDATE passes SET state = $2, latest_revision = $3, seconds = seconds + $4,
-			revisions = $5, updated = $6 WHERE id = $1`, passID, string(rev.State), out.ID, rev.Seconds, out.Seq, out.At)
 		if err != nil {
 			return err
 		}
@@ -313,6 +326,12 @@ func checkRevision(ci info, rev scan.Revision) error {
 	return nil
 }
 
+// adaptiveCheck reports whether a save may trigger the adaptive rule: the
+// first submission of a round-1 pass in an adaptive campaign.
+func adaptiveCheck(ci info, round int, prev, now scan.PassState) bool {
+	return ci.adaptive && round == 1 && now == scan.PassSubmitted && prev != scan.PassSubmitted
+}
+
 // afterSave applies the campaign rules after a pass moved from state prev
 // to now: a first skip wants a replacement pass (withdrawn, if nobody took
 // it yet, when the pass is taken up again); in an adaptive campaign the
@@ -329,7 +348,7 @@ func afterSave(ctx context.Context, tx pgx.Tx, campaignID int64, eventID string,
 			return err
 		}
 	}
-	if now != scan.PassSubmitted || prev == scan.PassSubmitted || !ci.adaptive || round != 1 {
+	if !adaptiveCheck(ci, round, prev, now) {
 		return nil
 	}
 	var extras int

@@ -21,6 +21,7 @@ import (
 	"sort"
 	"strconv"
 	"strings"
+	"sync"
 	"time"
 
 	"github.com/jackc/pgx/v5"
@@ -48,6 +49,9 @@ const (
 // Store is a campaign database on a PostgreSQL server.
 type Store struct {
 	pool *pgxpool.Pool
+
+	mu    sync.Mutex
+	infos map[int64]info // campaign rows never change once made
 }
 
 var (
@@ -77,7 +81,7 @@ func Open(ctx context.Context, dsn string) (*Store, error) {
 	if err != nil {
 		return nil, fmt.Errorf("connect to postgres: %w", err)
 	}
-	s := &Store{pool: pool}
+	s := &Store{pool: pool, infos: map[int64]info{}}
 	if err := s.migrate(ctx); err != nil {
 		pool.Close()
 		return nil, err
