@@ -4,7 +4,7 @@ import (
 	"encoding/binary"
 	"os"
 	"path/filepath"
-	"sort"
+	"slices"
 	"testing"
 	"time"
 	"unsafe"
@@ -91,8 +91,7 @@ func BenchmarkFrame(b *testing.B) {
 					n = linesBytes(f.draw(z.z, tier))
 					times = append(times, time.Since(t0))
 				}
-				sort.Slice(times, func(i, j int) bool { return times[i] < times[j] })
-				b.ReportMetric(float64(times[len(times)/2].Microseconds()), "median-µs")
+				b.ReportMetric(float64(median(times).Microseconds()), "median-µs")
 				b.ReportMetric(float64(n), "bytes/frame")
 			})
 		}
@@ -136,6 +135,31 @@ func BenchmarkLoadPyramid(b *testing.B) {
 		}
 		b.ReportMetric(float64(extra)/float64(4*totalSamples(planes)), "extra-mem/raw")
 	})
+	// Both in turn, so that the ratio compares like with like on a busy
+	// machine: median pyramid time over median read time.
+	b.Run("ratio", func(b *testing.B) {
+		var reads, builds []time.Duration
+		for b.Loop() {
+			t0 := time.Now()
+			if _, err := os.ReadFile(path); err != nil {
+				b.Fatal(err)
+			}
+			t1 := time.Now()
+			for _, img := range planes {
+				NewPyramid(img)
+			}
+			reads, builds = append(reads, t1.Sub(t0)), append(builds, time.Since(t1))
+		}
+		b.ReportMetric(float64(median(builds))/float64(median(reads)), "pyramid/read")
+		b.ReportMetric(float64(median(reads).Milliseconds()), "read-ms")
+		b.ReportMetric(float64(median(builds).Milliseconds()), "pyramid-ms")
+	})
+}
+
+func median(d []time.Duration) time.Duration {
+	s := slices.Clone(d)
+	slices.Sort(s)
+	return s[len(s)/2]
 }
 
 func totalSamples(planes []*scan.Image) int {

@@ -8,18 +8,23 @@ import (
 	"github.com/tpcscan/tpcscan/scan"
 )
 
-// Pyramid holds a plane image at successive 2× reductions (max and sum) so
-// that Sample touches O(W·H) stored values at any zoom. Level k reduces
-// blocks of 2^k wires × 2^k ticks; level 0 is the image itself. The extra
-// memory is 2 × (1/4 + 1/16 + …) < 2/3 of the image.
+// Pyramid holds a plane image at successive reductions (max and sum) so
+// that Sample touches O(W·H) stored values at any zoom. The first level
+// reduces blocks of 4 wires × 4 ticks, each further level 2 × 2 of the one
+// before; level 0 is the image itself. Skipping the 2×2 level costs a
+// frame at most 4 × 4 reads per pixel at that zoom, and saves most of the
+// memory and time of building: the reductions add 2 × (1/16 + 1/64 + …) =
+// 1/6 of the image.
 type Pyramid struct {
 	img    *scan.Image
 	levels []level
 }
 
-// level is one reduction of the image, stored wire-major like scan.Image.
+// level is one reduction of the image, stored wire-major like scan.Image;
+// a cell covers block × block samples.
 type level struct {
 	wires, ticks int
+	block        int
 	max, sum     []float32
 }
 
@@ -30,13 +35,17 @@ func NewPyramid(img *scan.Image) *Pyramid {
 	if img == nil || img.Wires <= 0 || img.Ticks <= 0 || len(img.Pix) < img.Wires*img.Ticks {
 		return p
 	}
-	l := level{wires: img.Wires, ticks: img.Ticks, max: img.Pix, sum: img.Pix}
+	l := level{wires: img.Wires, ticks: img.Ticks, block: 1, max: img.Pix, sum: img.Pix}
+	p.levels = append(p.levels, l)
+	if l.wires < 4 || l.ticks < 4 {
+		return p
+	}
+	l = reduce(l, 4)
 	p.levels = append(p.levels, l)
 	// Stop before a side shrinks to one cell: further levels would help only
-	// thin strips (whose samples are few anyway) and could exceed the
-	// memory bound there.
+	// thin strips, whose cells are few anyway.
 	for l.wires >= 3 && l.ticks >= 3 {
-		l = halve(l)
+		l = reduce(l, 2)
 		p.levels = append(p.levels, l)
 	}
 	return p
@@ -54,17 +63,21 @@ func (p *Pyramid) Bytes() int {
 	return n
 }
 
-// halve reduces a level by 2×2 blocks. Odd edges form short blocks. Output
-// wires are independent, so they are split across
-// the CPUs.
-func halve(src level) level {
-	dst := level{wires: (src.wires + 1) / 2, ticks: (src.ticks + 1) / 2}
+// reduce builds the next level from src by f × f blocks; edges form short
+// blocks. Each output wire folds its f input wires into one row (max and
+// sum per tick), then folds that row f ticks at a time. Output wires are
+// independent, so they are split across the CPUs.
+func reduce(src level, f int) level {
+	dst := level{wires: (src.wires + f - 1) / f, ticks: (src.ticks + f - 1) / f, block: src.block * f}
 	n := dst.wires * dst.ticks
 	dst.max = make([]float32, n)
 	dst.sum = make([]float32, n)
 	parallel(dst.wires, func(w0, w1 int) {
+		mx, sm := make([]float32, src.ticks), make([]float32, src.ticks)
 		for w := w0; w < w1; w++ {
-			halveWire(src, dst, w)
+			foldWires(mx, sm, src, w*f, min(w*f+f, src.wires))
+			o := w * dst.ticks
+			foldTicks(dst.max[o:o+dst.ticks], dst.sum[o:o+dst.ticks], mx, sm, f)
 		}
 	})
 	return dst
@@ -85,41 +98,76 @@ func parallel(n int, f func(lo, hi int)) {
 	wg.Wait()
 }
 
-// halveWire builds output wire w of dst from input wires 2w and 2w+1.
-func halveWire(src, dst level, w int) {
+// foldWires sets mx and sm to the per-tick max and sum of wires [a, b).
+// The builtin max is branch-free, which matters on noise, where a compare
+// and branch would mispredict half the time; it also makes a NaN sample
+// win, so a block holding one shows as missing data.
+func foldWires(mx, sm []float32, src level, a, b int) {
 	t := src.ticks
-	a := 2 * w
-	b := min(a+1, src.wires-1)
-	om := dst.max[w*dst.ticks : (w+1)*dst.ticks]
-	os := dst.sum[w*dst.ticks : (w+1)*dst.ticks]
-	am, bm := src.max[a*t:(a+1)*t], src.max[b*t:(b+1)*t]
-	as, bs := src.sum[a*t:(a+1)*t], src.sum[b*t:(b+1)*t]
-	full := t / 2
-	if a == b { // last odd wire: blocks of one wire
-		bm, bs = am, make([]float32, t)
-	}
-	pairs(om[:full], os[:full], am, as, bm, bs)
-	if full < dst.ticks { // last odd tick: blocks of one tick
-		om[full] = max(am[t-1], bm[t-1])
-		os[full] = as[t-1] + bs[t-1]
+	copy(mx, src.max[a*t:(a+1)*t])
+	copy(sm, src.sum[a*t:(a+1)*t])
+	same := &src.max[0] == &src.sum[0] // level 0: one array for both
+	for w := a + 1; w < b; w++ {
+		rm := src.max[w*t : (w+1)*t]
+		if same {
+			maxAdd(mx, sm, rm)
+			continue
+		}
+		rs := src.sum[w*t : (w+1)*t]
+		rs = rs[:len(sm)]
+		for i, v := range rm[:len(mx)] {
+			mx[i] = max(mx[i], v)
+		}
+		for i, v := range rs {
+			sm[i] += v
+		}
 	}
 }
 
-// pairs reduces two wires of samples, 2×2 at a time, into max and sum:
-// the hot loop of building a pyramid. The builtin max is branch-free, which
-// matters on noise, where a compare-and-branch would mispredict half the
-// time; it also makes a NaN sample win, so a block holding one shows as
-// missing data.
-func pairs(om, os, am, as, bm, bs []float32) {
-	os = os[:len(om)]
-	for i := range om {
-		if len(am) < 2 || len(bm) < 2 || len(as) < 2 || len(bs) < 2 {
-			break
-		}
-		om[i] = max(am[0], am[1], bm[0], bm[1])
-		os[i] = (as[0] + as[1]) + (bs[0] + bs[1])
-		am, bm, as, bs = am[2:], bm[2:], as[2:], bs[2:]
+// maxAdd folds one row of samples into running max and sum rows: the hot
+// loop of building a pyramid.
+func maxAdd(mx, sm, row []float32) {
+	row = row[:len(mx)]
+	sm = sm[:len(mx)]
+	for i, v := range row {
+		mx[i] = max(mx[i], v)
+		sm[i] += v
 	}
+}
+
+// foldTicks reduces rows mx and sm f ticks at a time into om and os.
+func foldTicks(om, os, mx, sm []float32, f int) {
+	full := len(mx) / f
+	switch f {
+	case 4:
+		for k := range full {
+			a, b := mx[4*k:4*k+4:4*k+4], sm[4*k:4*k+4:4*k+4]
+			om[k] = max(max(a[0], a[1]), max(a[2], a[3]))
+			os[k] = (b[0] + b[1]) + (b[2] + b[3])
+		}
+	case 2:
+		for k := range full {
+			a, b := mx[2*k:2*k+2:2*k+2], sm[2*k:2*k+2:2*k+2]
+			om[k] = max(a[0], a[1])
+			os[k] = b[0] + b[1]
+		}
+	default:
+		for k := range full {
+			om[k], os[k] = foldSpan(mx[f*k:f*k+f], sm[f*k:f*k+f])
+		}
+	}
+	if full < len(om) { // a short block at the end
+		om[full], os[full] = foldSpan(mx[f*full:], sm[f*full:])
+	}
+}
+
+func foldSpan(mx, sm []float32) (m, s float32) {
+	m = mx[0]
+	for i, v := range mx {
+		m = max(m, v)
+		s += sm[i]
+	}
+	return m, s
 }
 
 // span is the range [a, b) of level cells one pixel reduces over.
@@ -151,19 +199,12 @@ func (p *Pyramid) Sample(dst *Grid, win Window, r Reduce) {
 		fill(dst.Pix, nan)
 		return
 	}
-	k := 0
-	if s := min(win.WiresPerPx, win.TicksPerPx); s >= 2 {
-		k = min(int(math.Log2(s)), len(p.levels)-1)
-		if math.Exp2(float64(k)) > s { // guard log rounding
-			k--
-		}
-	}
-	l := p.levels[k]
+	l := p.levelFor(win)
 	src := l.max
 	if r == ReduceSum {
 		src = l.sum
 	}
-	block := math.Exp2(float64(k))
+	block := float64(l.block)
 	cols := spans(make([]span, dst.W), win.Wire0/block, win.WiresPerPx/block, l.wires)
 	rows := spans(make([]span, dst.H), win.Tick0/block, win.TicksPerPx/block, l.ticks)
 	col := make([]float32, dst.H)
@@ -179,6 +220,20 @@ func (p *Pyramid) Sample(dst *Grid, win Window, r Reduce) {
 			dst.Pix[j*dst.W+i] = v
 		}
 	}
+}
+
+// levelFor returns the deepest level whose blocks are no larger than the
+// window's pixels in either direction.
+func (p *Pyramid) levelFor(win Window) level {
+	s := min(win.WiresPerPx, win.TicksPerPx)
+	l := p.levels[0]
+	for _, c := range p.levels[1:] {
+		if float64(c.block) > s {
+			break
+		}
+		l = c
+	}
+	return l
 }
 
 // reduceColumn reduces the level cells of wires [c.a, c.b) into one column

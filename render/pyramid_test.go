@@ -8,11 +8,11 @@ import (
 )
 
 // bruteSample computes one pixel straight from the image: the level cells
-// Sample assigns to it, each expanded to its 2^k × 2^k block of samples.
-func bruteSample(img *scan.Image, win Window, k, i, j int, r Reduce) float32 {
-	b := math.Exp2(float64(k))
-	lw := (img.Wires + int(b) - 1) / int(b)
-	lt := (img.Ticks + int(b) - 1) / int(b)
+// Sample assigns to it, each expanded to its block × block samples.
+func bruteSample(img *scan.Image, win Window, block, i, j int, r Reduce) float32 {
+	b := float64(block)
+	lw := (img.Wires + block - 1) / block
+	lt := (img.Ticks + block - 1) / block
 	cs := spans(make([]span, i+1), win.Wire0/b, win.WiresPerPx/b, lw)[i]
 	rs := spans(make([]span, j+1), win.Tick0/b, win.TicksPerPx/b, lt)[j]
 	if cs.a >= cs.b || rs.a >= rs.b {
@@ -22,8 +22,8 @@ func bruteSample(img *scan.Image, win Window, k, i, j int, r Reduce) float32 {
 	if r == ReduceSum {
 		acc = 0
 	}
-	for w := int(cs.a) * int(b); w < min(int(cs.b)*int(b), img.Wires); w++ {
-		for t := int(rs.a) * int(b); t < min(int(rs.b)*int(b), img.Ticks); t++ {
+	for w := int(cs.a) * block; w < min(int(cs.b)*block, img.Wires); w++ {
+		for t := int(rs.a) * block; t < min(int(rs.b)*block, img.Ticks); t++ {
 			if r == ReduceSum {
 				acc += img.At(w, t)
 			} else {
@@ -34,12 +34,15 @@ func bruteSample(img *scan.Image, win Window, k, i, j int, r Reduce) float32 {
 	return acc
 }
 
-func levelFor(win Window) int {
+// wantBlock is the block size Sample should read for a window: the
+// largest of 1, 4, 8, 16, … not above the window's pixel size.
+func wantBlock(win Window, levels int) int {
 	s := min(win.WiresPerPx, win.TicksPerPx)
-	if s < 2 {
-		return 0
+	b := 1
+	for next, n := 4, 1; n < levels && float64(next) <= s; next, n = next*2, n+1 {
+		b = next
 	}
-	return int(math.Floor(math.Log2(s)))
+	return b
 }
 
 func TestSampleMatchesBruteForce(t *testing.T) {
@@ -58,10 +61,13 @@ func TestSampleMatchesBruteForce(t *testing.T) {
 		for _, r := range []Reduce{ReduceMax, ReduceSum} {
 			g := Grid{W: 40, H: 60}
 			p.Sample(&g, win, r)
-			k := min(levelFor(win), len(p.levels)-1)
+			block := wantBlock(win, len(p.levels))
+			if got := p.levelFor(win).block; got != block {
+				t.Fatalf("%s: reads blocks of %d, want %d", name, got, block)
+			}
 			for j := range g.H {
 				for i := range g.W {
-					want := bruteSample(img, win, k, i, j, r)
+					want := bruteSample(img, win, block, i, j, r)
 					got := g.Pix[j*g.W+i]
 					if math.IsNaN(float64(want)) != math.IsNaN(float64(got)) ||
 						math.Abs(float64(got-want)) > 1e-3*math.Max(1, math.Abs(float64(want))) {
