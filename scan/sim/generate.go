@@ -351,8 +351,8 @@ func (g *generator) interaction(class string) vec {
 }
 
 // protons emits 0–3 protons (probabilities w) sharing the hadronic energy
-// had (MeV): each gets 25 MeV plus an exponential share, and protons that
-// no longer fit in the budget are dropped.
+// had (MeV): each gets 25 MeV plus an exponential share (mean 90 MeV);
+// the first is cut to the budget, later ones that no longer fit are dropped.
 func (g *generator) protons(v vec, had float64, w [4]float64) {
 	u, n := g.r.Float64(), 0
 	for n < 3 && u >= w[n] {
@@ -360,10 +360,13 @@ func (g *generator) protons(v vec, had float64, w [4]float64) {
 		n++
 	}
 	budget := min(had, 1200)
-	for range n {
+	for j := range n {
 		t := 25 + expo(g.r, 90)
 		if t > budget {
-			break
+			if j > 0 || budget < 25 {
+				break
+			}
+			t = budget // the first proton always fits
 		}
 		budget -= t
 		g.emit(kProton, 2212, v, hadronDir(g.r), t, 0, 0, "interaction")

@@ -251,7 +251,11 @@ func TestPhotonConversionLength(t *testing.T) {
 // the mean longitudinal charge profile in bins of bw radiation lengths and
 // the fraction of charge within one Molière radius of the axis.
 func showerProfile(n int, e, bw float64) (prof []float64, inRM float64) {
-	r := eventRand(16, int(e))
+	return showerProfileSeed(n, e, bw, 16)
+}
+
+func showerProfileSeed(n int, e, bw float64, seed int64) (prof []float64, inRM float64) {
+	r := eventRand(seed, int(e))
 	prof = make([]float64, int(30/bw))
 	var in, tot float64
 	for range n {
@@ -275,24 +279,20 @@ func showerProfile(n int, e, bw float64) (prof []float64, inRM float64) {
 
 // TestShowerProfile checks the cascade against [PDG34] §34.5: the depth of
 // the maximum of the mean longitudinal profile of 0.3 and 1 GeV electron
-// showers against t_max = ln(E/Ec) − 0.5 (eq. 34.36; 1.71 and 2.92 X0) within
-// 15%, and the fraction of the charge within one Molière radius against
-// the PDG 90% (eq. 34.37) within ±10%. What is checked is the emergent
-// profile of the simulated cascade (peak of a parabola through the three
-// highest bins of the mean profile), not a sampled Gamma function. The PDG
-// fits were made above 1 GeV; §5 suggests ±30% below.
+// showers against t_max = ln(E/Ec) − 0.5 (eq. 34.36; 1.71 and 2.92 X0)
+// within 15%, and the fraction of the charge within one Molière radius
+// against the PDG 90% (eq. 34.37) within ±10%. What is checked is the
+// emergent mean profile of the simulated cascade (charge per 0.25 X0 of
+// depth, 400 showers), not a sampled Gamma function; its maximum is found
+// by a local parabola (profilePeak). A Gamma fit to the whole profile
+// would put it lower: at 0.3 GeV the profile rises more slowly and falls
+// faster than a Gamma function. The PDG fits were made above 1 GeV; §5
+// suggests ±30% below.
 func TestShowerProfile(t *testing.T) {
 	for _, e := range []float64{300, 1000} {
 		const bw = 0.25
-		prof, inRM := showerProfile(150, e, bw)
-		k := 1
-		for i := 1; i < len(prof)-1; i++ {
-			if prof[i] > prof[k] {
-				k = i
-			}
-		}
-		a, b, c := prof[k-1], prof[k], prof[k+1]
-		got := (float64(k) + 0.5 + 0.5*(a-c)/(a-2*b+c)) * bw
+		prof, inRM := showerProfile(400, e, bw)
+		got := profilePeak(prof, bw)
 		want := math.Log(e/larEc) - 0.5
 		t.Logf("E=%g MeV: maximum at %.3f X0 (PDG %.3f), %.3f within R_M", e, got, want, inRM)
 		if relErr(got, want) > 0.15 {
@@ -301,6 +301,76 @@ func TestShowerProfile(t *testing.T) {
 		if math.Abs(inRM-0.90) > 0.09 {
 			t.Errorf("E=%g MeV: %.3f of the charge within R_M, PDG 0.90 ±10%%", e, inRM)
 		}
+	}
+}
+
+// profilePeak returns the depth of the maximum of a binned profile: the
+// vertex of a parabola fitted by least squares to the seven bins around
+// the highest bin (±0.75 X0 for 0.25 X0 bins), which averages out the
+// bin-to-bin noise of the mean profile.
+func profilePeak(prof []float64, bw float64) float64 {
+	k := 0
+	for i := range prof {
+		if prof[i] > prof[k] {
+			k = i
+		}
+	}
+	var m [3][4]float64
+	for i := max(0, k-3); i <= min(len(prof)-1, k+3); i++ {
+		tt := (float64(i) + 0.5) * bw
+		x := [3]float64{1, tt, tt * tt}
+		for r := range 3 {
+			for c := range 3 {
+				m[r][c] += x[r] * x[c]
+			}
+			m[r][3] += x[r] * prof[i]
+		}
+	}
+	c := solve3(m)
+	return -c[1] / (2 * c[2])
+}
+
+// solve3 solves a 3×3 linear system given as an augmented matrix by
+// Gaussian elimination with partial pivoting.
+func solve3(m [3][4]float64) [3]float64 {
+	for col := range 3 {
+		piv := col
+		for r := col + 1; r < 3; r++ {
+			if math.Abs(m[r][col]) > math.Abs(m[piv][col]) {
+				piv = r
+			}
+		}
+		m[col], m[piv] = m[piv], m[col]
+		for r := col + 1; r < 3; r++ {
+			f := m[r][col] / m[col][col]
+			for k := col; k < 4; k++ {
+				m[r][k] -= f * m[col][k]
+			}
+		}
+	}
+	var x [3]float64
+	for r := 2; r >= 0; r-- {
+		s := m[r][3]
+		for k := r + 1; k < 3; k++ {
+			s -= m[r][k] * x[k]
+		}
+		x[r] = s / m[r][r]
+	}
+	return x
+}
+
+// TestProfilePeak checks the peak finder on a Gamma profile (eq. 34.35)
+// with a = 2.5, b = 0.5, whose maximum is at (a − 1)/b = 3; the parabola
+// through ±0.75 around it is good to 2% (the Gamma peak is skewed).
+func TestProfilePeak(t *testing.T) {
+	const bw = 0.25
+	prof := make([]float64, 120)
+	for k := range prof {
+		tt := (float64(k) + 0.5) * bw
+		prof[k] = math.Pow(tt, 1.5) * math.Exp(-0.5*tt)
+	}
+	if got := profilePeak(prof, bw); math.Abs(got-3) > 0.06 {
+		t.Errorf("profilePeak = %g, want 3", got)
 	}
 }
 

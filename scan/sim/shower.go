@@ -35,10 +35,13 @@ func (tr *transport) electron(pos, dir vec, t float64) vec {
 				tr.stack = append(tr.stack, pending{photon: true, pos: pos, dir: dir, e: e})
 			}
 		}
-		loss := min(electronDEdx*ds, t)
+		// Collision loss with a centred Moyal fluctuation of scale ξ
+		// ([PDG34] eq. 34.12), so electron tracks flicker like muon tracks.
 		p := momentum(t, massE)
-		np, nd := tr.scatter(pos, dir, ds, stepTheta0(p, p/(t+massE), ds))
-		tr.depositSeg(pos, np, loss, electronDEdx)
+		beta2 := p * p / ((t + massE) * (t + massE))
+		loss := clamp(electronDEdx*ds+landauXi(beta2, ds)*(moyal(tr.rng)-moyalMean), 0, t)
+		np, nd := tr.scatter(pos, dir, ds, stepTheta0(p, math.Sqrt(beta2), ds))
+		tr.depositSeg(pos, np, loss, loss/ds)
 		t -= loss
 		pos, dir = np, nd
 	}
