@@ -19,6 +19,7 @@ import (
 	"github.com/tpcscan/tpcscan/scan"
 	"github.com/tpcscan/tpcscan/store"
 	"github.com/tpcscan/tpcscan/store/backend"
+	"github.com/tpcscan/tpcscan/ui/serve/servetest"
 )
 
 // wait bounds every wait for output; it is a deadline for failures, never
@@ -113,20 +114,11 @@ func (f *fixture) dial(name string) (*gossh.Client, net.Conn) {
 }
 
 func (f *fixture) tryDial(user string, auth ...gossh.AuthMethod) (*gossh.Client, net.Conn, error) {
-	conn, err := net.DialTimeout("tcp", f.addr, wait)
-	if err != nil {
-		return nil, nil, err
+	c, conn, err := servetest.Dial(f.addr, f.hostKey, user, wait, auth...)
+	if err == nil {
+		f.t.Cleanup(func() { c.Close() })
 	}
-	cc, chans, reqs, err := gossh.NewClientConn(conn, f.addr, &gossh.ClientConfig{
-		User: user, Auth: auth, HostKeyCallback: gossh.FixedHostKey(f.hostKey), Timeout: wait,
-	})
-	if err != nil {
-		conn.Close()
-		return nil, nil, err
-	}
-	c := gossh.NewClient(cc, chans, reqs)
-	f.t.Cleanup(func() { c.Close() })
-	return c, conn, nil
+	return c, conn, err
 }
 
 // end waits for the next session end.
@@ -146,33 +138,16 @@ type terminal struct {
 	t    *testing.T
 	sess *gossh.Session
 	in   io.WriteCloser
-	out  *stream
+	out  *servetest.Stream
 }
 
 func openTerminal(t *testing.T, c *gossh.Client, term string, env map[string]string, w, h int) *terminal {
 	t.Helper()
-	s, err := c.NewSession()
+	tm, err := servetest.Open(c, term, env, w, h)
 	if err != nil {
 		t.Fatal(err)
 	}
-	for k, v := range env {
-		if err := s.Setenv(k, v); err != nil {
-			t.Fatalf("setenv %s: %v", k, err)
-		}
-	}
-	if err := s.RequestPty(term, h, w, gossh.TerminalModes{}); err != nil {
-		t.Fatal(err)
-	}
-	in, err := s.StdinPipe()
-	if err != nil {
-		t.Fatal(err)
-	}
-	out := newStream()
-	s.Stdout, s.Stderr = out, out
-	if err := s.Shell(); err != nil {
-		t.Fatal(err)
-	}
-	return &terminal{t: t, sess: s, in: in, out: out}
+	return &terminal{t: t, sess: tm.Session, in: tm.In, out: tm.Out}
 }
 
 // press sends one key and waits for the text that shows it was handled.
@@ -186,59 +161,9 @@ func (tm *terminal) press(key, want string) {
 
 func (tm *terminal) expect(want string) {
 	tm.t.Helper()
-	if err := tm.out.waitFor(want, wait); err != nil {
+	if err := tm.out.WaitFor(want, wait); err != nil {
 		tm.t.Fatal(err)
 	}
-}
-
-// stream collects a session's output and lets a reader wait for text.
-type stream struct {
-	mu     sync.Mutex
-	buf    bytes.Buffer
-	cursor int           // waitFor searches from here
-	grew   chan struct{} // closed and replaced on every write
-}
-
-func newStream() *stream { return &stream{grew: make(chan struct{})} }
-
-func (s *stream) Write(p []byte) (int, error) {
-	s.mu.Lock()
-	defer s.mu.Unlock()
-	s.buf.Write(p)
-	close(s.grew)
-	s.grew = make(chan struct{})
-	return len(p), nil
-}
-
-// waitFor waits until want appears after the previous match.
-func (s *stream) waitFor(want string, d time.Duration) error {
-	deadline := time.After(d)
-	for {
-		s.mu.Lock()
-		i := bytes.Index(s.buf.Bytes()[s.cursor:], []byte(want))
-		if i >= 0 {
-			s.cursor += i + len(want)
-		}
-		grew, tail := s.grew, s.buf.Bytes()[max(0, s.buf.Len()-300):]
-		if j := bytes.LastIndex(s.buf.Bytes(), []byte("stand-in")); j >= 0 {
-			tail = s.buf.Bytes()[j:min(s.buf.Len(), j+300)] // the stand-in's status line
-		}
-		s.mu.Unlock()
-		if i >= 0 {
-			return nil
-		}
-		select {
-		case <-grew:
-		case <-deadline:
-			return fmt.Errorf("no %q in the output after %s; it ends with %q", want, d, tail)
-		}
-	}
-}
-
-func (s *stream) String() string {
-	s.mu.Lock()
-	defer s.mu.Unlock()
-	return s.buf.String()
 }
 
 type syncBuffer struct {
