@@ -415,3 +415,32 @@ func TestHandBuiltCanvasTooFewCells(t *testing.T) {
 		t.Errorf("negative width: %d rows", n)
 	}
 }
+
+// A tier snapshot shows the palette colour the terminal would, in the
+// palette's conventional RGB (xterm's table, as tcell holds it).
+func TestWritePNGTier(t *testing.T) {
+	c := NewCanvas(1, 1)
+	sw := Scales()[0].Swatch(0.6)
+	c.Set(0, 0, Cell{Rune: ' ', BG: sw})
+	for _, tier := range []Tier{TierTrueColor, Tier256, Tier16, TierMono} {
+		var buf bytes.Buffer
+		if err := c.WritePNGTier(&buf, tier); err != nil {
+			t.Fatal(err)
+		}
+		img, err := png.Decode(&buf)
+		if err != nil {
+			t.Fatal(err)
+		}
+		got := color.RGBAModel.Convert(img.At(4, 8)).(color.RGBA)
+		want := sw.RGB()
+		switch tier {
+		case Tier256, Tier16:
+			want = paletteRGB(sw.Index(tier))
+		case TierMono:
+			_, want = pngDefaults()
+		}
+		if got != want {
+			t.Errorf("%s: cell drawn %v, want %v", tier, got, want)
+		}
+	}
+}

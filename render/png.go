@@ -31,19 +31,24 @@ func pngDefaults() (fg, bg color.RGBA) {
 // or glyph), for reports and snapshots. Colours are the cells' own 24-bit
 // colours; half blocks, full blocks, braille and box-drawing lines are
 // drawn as shapes, other text with a small bitmap font.
-func (c *Canvas) WritePNG(w io.Writer) error {
+func (c *Canvas) WritePNG(w io.Writer) error { return c.WritePNGTier(w, TierTrueColor) }
+
+// WritePNGTier is WritePNG with colours as tier t shows them: the palette
+// colours of the 256 and 16 tiers (in their conventional RGB), or the
+// default colours only in the mono and braille tiers.
+func (c *Canvas) WritePNGTier(w io.Writer, t Tier) error {
 	if c.W <= 0 || c.rows() <= 0 {
 		return fmt.Errorf("write png: empty %d×%d canvas", c.W, c.H)
 	}
-	img := c.Image()
-	if err := png.Encode(w, img); err != nil {
+	if err := png.Encode(w, c.Image(t)); err != nil {
 		return fmt.Errorf("write png: %w", err)
 	}
 	return nil
 }
 
-// Image draws the canvas as an RGBA image, 8×16 pixels per cell.
-func (c *Canvas) Image() *image.RGBA {
+// Image draws the canvas as an RGBA image, 8×16 pixels per cell, in the
+// colours of tier t.
+func (c *Canvas) Image(t Tier) *image.RGBA {
 	h := c.rows()
 	img := image.NewRGBA(image.Rect(0, 0, max(c.W, 0)*pngCellW, h*pngCellH))
 	d := &font.Drawer{Dst: img, Face: basicfont.Face7x13}
@@ -53,7 +58,7 @@ func (c *Canvas) Image() *image.RGBA {
 			if cell.Rune == wideTail {
 				continue
 			}
-			fg, bg := cellColors(cell)
+			fg, bg := cellColors(cell, t)
 			r := image.Rect(x*pngCellW, y*pngCellH, (x+1)*pngCellW, (y+1)*pngCellH)
 			if runeWidth(cell.Rune) == 2 {
 				r.Max.X += pngCellW
@@ -65,18 +70,33 @@ func (c *Canvas) Image() *image.RGBA {
 	return img
 }
 
-func cellColors(cell Cell) (fg, bg color.Color) {
+func cellColors(cell Cell, t Tier) (fg, bg color.Color) {
 	fg, bg = pngDefaults()
-	if cell.FG != nil {
-		fg = toRGBA(cell.FG)
+	if c := tierRGB(cell.FG, t); c != nil {
+		fg = c
 	}
-	if cell.BG != nil {
-		bg = toRGBA(cell.BG)
+	if c := tierRGB(cell.BG, t); c != nil {
+		bg = c
 	}
 	if cell.Attr&AttrReverse != 0 {
 		fg, bg = bg, fg
 	}
 	return fg, bg
+}
+
+// tierRGB is colour c as tier t draws it, nil for the terminal default.
+func tierRGB(c color.Color, t Tier) color.Color {
+	if c == nil || !t.HasColor() {
+		return nil
+	}
+	if t == TierTrueColor {
+		return toRGBA(c)
+	}
+	sw, ok := c.(*Swatch)
+	if !ok {
+		sw = NewSwatch(c)
+	}
+	return paletteRGB(sw.Index(t))
 }
 
 func drawGlyph(img *image.RGBA, d *font.Drawer, r image.Rectangle, cell Cell, fg color.Color) {
