@@ -1,15 +1,19 @@
 package agree
 
 import (
+	"cmp"
 	"math"
+	"slices"
 
 	"github.com/tpcscan/tpcscan/scan"
 )
 
 // PassRatings turns a campaign's passes into ratings of the topology class:
-// one per submitted pass (item = event, rater = scanner). Assigned, draft
-// and skipped passes are missing ratings. Callers that keep the last
-// submitted revision of a reopened pass put it into Pass.Label and State.
+// one per submitted pass (item = event, rater = scanner), ordered by
+// scanner name and then event so that tables list scanners alphabetically.
+// Assigned, draft and skipped passes are missing ratings. Callers that keep
+// the last submitted revision of a reopened pass put it into Pass.Label and
+// State.
 func PassRatings(passes []scan.Pass) []Rating {
 	out := make([]Rating, 0, len(passes))
 	for _, p := range passes {
@@ -17,6 +21,9 @@ func PassRatings(passes []scan.Pass) []Rating {
 			out = append(out, Rating{Item: p.EventID, Rater: p.Scanner, Label: p.Label.Class})
 		}
 	}
+	slices.SortStableFunc(out, func(a, b Rating) int {
+		return cmp.Or(cmp.Compare(a.Rater, b.Rater), cmp.Compare(a.Item, b.Item))
+	})
 	return out
 }
 
