@@ -62,8 +62,8 @@ func ParseMix(s string) (map[string]float64, error) {
 // Validate checks the options.
 func (o Options) Validate() error {
 	var errs []error
-	if o.Events < 0 {
-		errs = append(errs, fmt.Errorf("events must be ≥ 0, got %d", o.Events))
+	if o.Events < 1 {
+		errs = append(errs, fmt.Errorf("events must be at least 1, got %d", o.Events))
 	}
 	switch o.Size {
 	case "", SizeDemo, SizeFull:

@@ -205,7 +205,7 @@ func TestOptionsValidate(t *testing.T) {
 		{"negative weight", "numu-cc=-1,cosmic=1", "demo", 3, "≥ 0"},
 		{"zero sum", "numu-cc=0", "", 3, "sum to zero"},
 		{"size", "", "huge", 3, `size "huge"`},
-		{"events", "", "full", -1, "events must be"},
+		{"events", "", "full", 0, "events must be at least 1"},
 	} {
 		t.Run(c.name, func(t *testing.T) {
 			var mix map[string]float64

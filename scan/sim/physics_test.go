@@ -5,6 +5,8 @@ import (
 	"testing"
 
 	"gonum.org/v1/gonum/stat/distuv"
+
+	"github.com/tpcscan/tpcscan/scan/detector"
 )
 
 // Section numbers (§) refer to the project's physics reference, which
@@ -470,4 +472,36 @@ func TestMoyal(t *testing.T) {
 	if x := -5 + (float64(mode)+0.5)*0.25; math.Abs(x) > 0.25 {
 		t.Errorf("Moyal mode near %.2f, want 0", x)
 	}
+}
+
+// TestCosmicRate checks the cosmic overlay's rate. The rate through a
+// horizontal surface, I_v·π/2 with I_v = 70 m⁻² s⁻¹ sr⁻¹ above 1 GeV/c, is
+// 0.66 cm⁻² min⁻¹ (§8, PDG cosmic-ray review, from memory). Over 100
+// readout windows the mean number of muons entering through the top face
+// must match that rate times the face's area and the window's time span
+// within 3σ (Poisson).
+func TestCosmicRate(t *testing.T) {
+	if got := cosmicIv * math.Pi / 2 * 60; relErr(got, 0.66) > 0.01 {
+		t.Errorf("rate through a horizontal surface %.4f cm⁻² min⁻¹, want 0.66", got)
+	}
+	det := detector.Tarn()
+	vol := box{lo: vec{0, -det.HeightCm / 2, 0}, hi: vec{det.DriftLengthCm, det.HeightCm / 2, det.LengthCm}}
+	const windows = 100
+	var top int
+	for i := range windows {
+		r := eventRand(20, i)
+		g := &generator{r: r, det: det, vol: vol, tr: newTransport(r, vol, 0.5), truth: &Truth{}}
+		g.cosmicOverlay()
+		for _, p := range g.truth.Particles {
+			if p.Parent == 0 && math.Abs(p.Start[1]-det.HeightCm/2) < 1e-3 {
+				top++
+			}
+		}
+	}
+	lo, hi := (&generator{det: det}).cosmicTimeWindow()
+	want := cosmicIv * math.Pi / 2 * det.DriftLengthCm * det.LengthCm * (hi - lo) * 1e-6 * windows
+	if math.Abs(float64(top)-want) > 3*math.Sqrt(want) {
+		t.Errorf("%d muons through the top face in %d windows, want %.0f ± %.0f", top, windows, want, 3*math.Sqrt(want))
+	}
+	t.Logf("%d muons through the top face in %d windows (%.0f expected)", top, windows, want)
 }
