@@ -42,6 +42,7 @@ func commands() []command {
 		reportCommand(),
 		demoCommand(),
 		campaignCommand(),
+		exportCommand(),
 		serveCommand(),
 	}
 }
