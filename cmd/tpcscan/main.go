@@ -44,6 +44,7 @@ func commands() []command {
 		campaignCommand(),
 		exportCommand(),
 		serveCommand(),
+		migrateCommand(),
 	}
 }
 
