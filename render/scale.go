@@ -1,8 +1,10 @@
 package render
 
 import (
+	"cmp"
 	"image/color"
 	"math"
+	"slices"
 	"sync"
 
 	"github.com/gdamore/tcell/v2"
@@ -33,24 +35,36 @@ type oklch struct{ l, c, h float64 }
 // point, so every scale reads dark→light without hue (colour-blind safe),
 // and hue moves along the blue–yellow axis or within warm hues, never
 // between red and green.
+//
+// ansi16 lists the 16-colour palette entries a scale may use in the 16
+// tier: those along its hues, so that the coarse version keeps the scale's
+// character (nearest-colour search over all 16 would borrow magenta or
+// green for in-between steps).
 var scaleDesigns = []struct {
-	name string
-	pts  []oklch
+	name   string
+	pts    []oklch
+	ansi16 []int
 }{
 	// loch: deep indigo water, through steel blue and teal, to pale straw.
-	{"loch", []oklch{{0.17, 0.055, 285}, {0.37, 0.125, 272}, {0.57, 0.095, 228}, {0.75, 0.095, 188}, {0.89, 0.115, 108}, {0.975, 0.045, 98}}},
+	{"loch", []oklch{{0.17, 0.055, 285}, {0.37, 0.125, 272}, {0.57, 0.095, 228}, {0.75, 0.095, 188}, {0.89, 0.115, 108}, {0.975, 0.045, 98}},
+		[]int{0, 4, 12, 6, 14, 11, 15}},
 	// peat: near-black brown, through rust and amber, to cream.
-	{"peat", []oklch{{0.16, 0.035, 25}, {0.36, 0.105, 30}, {0.56, 0.145, 45}, {0.74, 0.14, 68}, {0.88, 0.105, 90}, {0.975, 0.035, 95}}},
+	{"peat", []oklch{{0.16, 0.035, 25}, {0.36, 0.105, 30}, {0.56, 0.145, 45}, {0.74, 0.14, 68}, {0.88, 0.105, 90}, {0.975, 0.035, 95}},
+		[]int{0, 1, 9, 11, 15}},
 	// slate: a neutral grey ramp with the faintest blue cast.
-	{"slate", []oklch{{0.17, 0.012, 255}, {0.975, 0.004, 255}}},
+	{"slate", []oklch{{0.17, 0.012, 255}, {0.975, 0.004, 255}}, []int{0, 8, 7, 15}},
 }
 
 // builtinScales computes the scale tables once; they are immutable after.
 var builtinScales = sync.OnceValue(func() []Scale {
-	pal256, pal16 := palettes()
+	pal256, _ := palettes()
 	out := make([]Scale, len(scaleDesigns))
 	for i, d := range scaleDesigns {
 		t := &scaleTable{}
+		var pal16 []tcell.Color
+		for _, j := range d.ansi16 {
+			pal16 = append(pal16, tcell.PaletteColor(j))
+		}
 		quantiseRamp(t.sw[:], rampOKLab(d.pts, scaleSteps), pal256, pal16)
 		out[i] = Scale{Name: d.name, tab: t}
 	}
@@ -200,29 +214,32 @@ func quantise(c color.RGBA, p256, p16 []tcell.Color) Swatch {
 	}
 }
 
-// quantiseRamp quantises a ramp so that it stays a ramp: each step takes
-// tcell's nearest palette entry among those at least as light (OKLab L) as
-// the previous step's, so the 256- and 16-colour versions of a scale still
-// read dark→light. Plain nearest-colour search would not promise that: the
-// palettes are coarse, and CIE76 distance can pick a darker neighbour.
+// quantiseRamp quantises a ramp so that it stays a ramp. In the 256 tier
+// each step takes tcell's nearest palette entry among those at least as
+// light (OKLab L) as the previous step's: plain nearest-colour search over
+// the coarse palette can step back to a darker neighbour. The 16 tier has
+// too few colours to search: the scale's own entries, ordered by lightness,
+// share the ramp in equal bands, the darkest kept for the low end alone so
+// that any charge above it shows.
 func quantiseRamp(out []Swatch, ramp []color.RGBA, p256, p16 []tcell.Color) {
-	pick := func(pal []tcell.Color) func(c color.RGBA) uint8 {
-		floor := -1.0
-		return func(c color.RGBA) uint8 {
-			allowed := make([]tcell.Color, 0, len(pal))
-			for _, p := range pal {
-				if paletteLightness(p) >= floor {
-					allowed = append(allowed, p)
-				}
-			}
-			best := tcell.FindColor(tcell.NewRGBColor(int32(c.R), int32(c.G), int32(c.B)), allowed)
-			floor = paletteLightness(best)
-			return uint8(best & 0xff)
-		}
-	}
-	q256, q16 := pick(p256), pick(p16)
+	floor := -1.0
+	allowed := make([]tcell.Color, 0, len(p256))
+	p16 = slices.Clone(p16)
+	slices.SortStableFunc(p16, func(a, b tcell.Color) int { return cmp.Compare(paletteLightness(a), paletteLightness(b)) })
 	for i, c := range ramp {
-		out[i] = Swatch{c: c, i256: q256(c), i16: q16(c)}
+		allowed = allowed[:0]
+		for _, p := range p256 {
+			if paletteLightness(p) >= floor {
+				allowed = append(allowed, p)
+			}
+		}
+		best := tcell.FindColor(tcell.NewRGBColor(int32(c.R), int32(c.G), int32(c.B)), allowed)
+		floor = paletteLightness(best)
+		band := 0
+		if i > 0 && len(p16) > 1 {
+			band = 1 + (i-1)*(len(p16)-1)/(len(ramp)-1)
+		}
+		out[i] = Swatch{c: c, i256: uint8(best & 0xff), i16: uint8(p16[band] & 0xff)}
 	}
 }
 
