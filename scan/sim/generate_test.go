@@ -73,12 +73,16 @@ func TestGenerateEvents(t *testing.T) {
 				}
 			}
 			var coded int
-			for _, c := range ev.Truth[pi].Pix {
+			for k, c := range ev.Truth[pi].Pix {
 				if c < 0 || int(c) > len(tr.Particles) {
 					t.Fatalf("%s plane %d: pixel code %d, only %d particles", tr.Event, pi, c, len(tr.Particles))
 				}
 				if c > 0 {
 					coded++
+				}
+				// Noise is 2 ADC rms: 20 ADC is charge, and must be someone's.
+				if c == 0 && img.Pix[k] >= 20 {
+					t.Fatalf("%s plane %d: pixel %d holds %g ADC but no truth code", tr.Event, pi, k, img.Pix[k])
 				}
 			}
 			if coded == 0 && tr.Class != ClassCosmic {
