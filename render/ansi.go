@@ -41,11 +41,17 @@ func (c *Canvas) Lines(t Tier) []string {
 	buf := make([]byte, 0, max(c.W, 0)*h*4)
 	for y := range h {
 		var cur pen
+		wide := false // the previous cell held a wide rune
 		for _, cell := range c.Cells[y*c.W : (y+1)*c.W] {
 			r := cell.Rune
 			if r == wideTail {
-				continue
+				if wide {
+					wide = false
+					continue
+				}
+				r = ' ' // a zero Cell not after a wide rune is blank
 			}
+			wide = isWide(r)
 			next := pen{attr: cell.Attr}
 			if t.HasColor() {
 				next.fg, next.bg = q.key(cell.FG), q.key(cell.BG)
@@ -249,4 +255,13 @@ func termColor(c color.Color, t Tier) tcell.Color {
 		return tcell.NewHexColor(int32(k &^ keyRGB))
 	}
 	return tcell.PaletteColor(int(k - 1))
+}
+
+// isWide reports whether r takes two cells, skipping the width lookup for
+// the runes a plane image is made of.
+func isWide(r rune) bool {
+	if r < 0x1100 || (r >= 0x2500 && r <= 0x28ff) { // box drawing, blocks, braille
+		return false
+	}
+	return runeWidth(r) == 2
 }

@@ -61,7 +61,9 @@ const (
 	AttrUnderline
 )
 
-// Cell is one terminal cell. A nil FG/BG means the terminal default.
+// Cell is one terminal cell. A nil FG/BG means the terminal default. A
+// wide rune (two columns) is followed by a cell with Rune 0, which Lines
+// skips; a Rune 0 anywhere else shows as a space.
 type Cell struct {
 	Rune   rune
 	FG, BG color.Color

@@ -444,3 +444,15 @@ func TestWritePNGTier(t *testing.T) {
 		}
 	}
 }
+
+func TestZeroCellsShowBlank(t *testing.T) {
+	c := &Canvas{W: 4, H: 1, Cells: make([]Cell, 4)}
+	c.Set(1, 0, Cell{Rune: 'x'})
+	if got := c.Lines(TierMono)[0]; got != " x  " {
+		t.Errorf("zero cells: %q, want blanks keeping the width", got)
+	}
+	c.Text(0, 0, "事", nil, nil, 0)
+	if got := c.Lines(TierMono)[0]; got != "事  " {
+		t.Errorf("wide rune: %q, want its tail skipped", got)
+	}
+}

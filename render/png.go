@@ -53,14 +53,17 @@ func (c *Canvas) Image(t Tier) *image.RGBA {
 	img := image.NewRGBA(image.Rect(0, 0, max(c.W, 0)*pngCellW, h*pngCellH))
 	d := &font.Drawer{Dst: img, Face: basicfont.Face7x13}
 	for y := range h {
+		wide := false
 		for x := range c.W {
 			cell := c.Cells[y*c.W+x]
-			if cell.Rune == wideTail {
+			if cell.Rune == wideTail && wide {
+				wide = false
 				continue
 			}
+			wide = isWide(cell.Rune)
 			fg, bg := cellColors(cell, t)
 			r := image.Rect(x*pngCellW, y*pngCellH, (x+1)*pngCellW, (y+1)*pngCellH)
-			if runeWidth(cell.Rune) == 2 {
+			if wide {
 				r.Max.X += pngCellW
 			}
 			draw.Draw(img, r, image.NewUniform(bg), image.Point{}, draw.Src)
