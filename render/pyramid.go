@@ -179,7 +179,11 @@ type span struct{ a, b int32 }
 // zoom-out. Each level cell goes to the pixel its first sample falls in,
 // which makes ReduceSum conserve charge; at zoom-in (a pixel smaller than a
 // sample) pixels repeat the nearest sample. Pixels outside the image are
-// NaN.
+// NaN, and so are pixels over a NaN sample (missing data). The cost per
+// pixel grows with the window's aspect: with W wires and T ticks per pixel
+// it reads about max(W,T)/min(W,T) level cells (up to 16× that between
+// zoom 1 and 4). A Pyramid is never modified after NewPyramid, so Sample
+// may run concurrently.
 func (p *Pyramid) Sample(dst *Grid, win Window, r Reduce) {
 	if dst.W <= 0 || dst.H <= 0 {
 		dst.W, dst.H = max(dst.W, 0), max(dst.H, 0)
