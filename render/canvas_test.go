@@ -2,6 +2,7 @@ package render
 
 import (
 	"bytes"
+	"fmt"
 	"image/color"
 	"image/png"
 	"math"
@@ -18,11 +19,10 @@ import (
 
 var allTiers = []Tier{TierTrueColor, Tier256, Tier16, TierMono, TierBraille}
 
-// smallScene paints a 16×8-cell canvas: a charge gradient, a diagonal
+// smallScene paints a cols×rows canvas: a charge gradient, a diagonal
 // track, a region outside the image (NaN) and a bold label.
-func smallScene(t Tier) *Canvas {
+func smallScene(t Tier, cols, rows int) *Canvas {
 	px, py := PixelsPerCell(t)
-	const cols, rows = 16, 8
 	g := &Grid{W: cols * px, H: rows * py, Pix: make([]float32, cols*px*rows*py)}
 	for y := range g.H {
 		for x := range g.W {
@@ -45,10 +45,16 @@ func smallScene(t Tier) *Canvas {
 }
 
 func TestLinesGolden(t *testing.T) {
-	for _, tier := range allTiers {
-		t.Run(tier.String(), func(t *testing.T) {
-			golden.RequireEqual(t, smallScene(tier).String(tier)+"\n")
-		})
+	for _, size := range [][2]int{{16, 8}, {7, 3}, {40, 12}} {
+		for _, tier := range allTiers {
+			name := tier.String()
+			if size != [2]int{16, 8} {
+				name = fmt.Sprintf("%s-%dx%d", tier, size[0], size[1])
+			}
+			t.Run(name, func(t *testing.T) {
+				golden.RequireEqual(t, smallScene(tier, size[0], size[1]).String(tier)+"\n")
+			})
+		}
 	}
 }
 
