@@ -98,7 +98,7 @@ func EventID(index int) string { return fmt.Sprintf("tarn-%05d", index+1) }
 // Detector response (physics.md §7; common practice where no source is named).
 const (
 	lifetimeUs   = 6000.0 // electron lifetime, µs (demo default, common practice)
-	diffLCm2s    = 6.6    // longitudinal diffusion, cm²/s ([LI16] parametrisation at 0.5 kV/cm)
+	diffLCm2s    = 6.6    // longitudinal diffusion, cm²/s ([LI16] parametrisation at 0.5 kV/cm; coefficients from memory)
 	diffTCm2s    = 13.0   // transverse diffusion, cm²/s (Derenzo, in McDonald's compilation)
 	shapingUs    = 1.0    // Gaussian σ of the shaped pulse, µs (a ~2 µs shaping amplifier)
 	noiseENC     = 400.0  // electronics noise, e⁻ rms (cold electronics, arXiv:1705.07341)
