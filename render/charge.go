@@ -41,6 +41,24 @@ func (r Range) Value(f float64) float64 {
 	return r.Lo + f*(r.Hi-r.Lo)
 }
 
+// ForSum adapts a per-sample range (as AutoRange gives) to ReduceSum pixels
+// of window win, each adding about n = WiresPerPx·TicksPerPx samples (at
+// least 1). Noise adds in quadrature, so the low end, a noise floor above a
+// zero baseline, grows as √n; a track adds its charge along its length
+// inside the pixel, at most the pixel's longer side in samples, so the high
+// end grows by that.
+func (r Range) ForSum(win Window) Range {
+	w, t := math.Max(win.WiresPerPx, 1), math.Max(win.TicksPerPx, 1)
+	if math.IsNaN(w+t) || math.IsInf(w+t, 0) {
+		return r
+	}
+	out := Range{Lo: r.Lo * math.Sqrt(w*t), Hi: r.Hi * math.Max(w, t), Log: r.Log}
+	if !(out.Hi > out.Lo) {
+		out.Hi = out.Lo + math.Max(1, r.Hi-r.Lo)
+	}
+	return out
+}
+
 // Auto-range defaults: the low end sits just above the noise, the high end
 // at the 99.5th percentile of the charge above it (common practice: a high
 // percentile, not the maximum, keeps one hot sample from darkening

@@ -112,3 +112,30 @@ func TestAutoRangeEdgeCases(t *testing.T) {
 		t.Errorf("FullRange = %+v, want 0…40", r)
 	}
 }
+
+// A sum of n independent Gaussian samples of σ has σ√n (variances add; any
+// probability text), so ForSum's low end must keep summed noise as dark as
+// AutoRange keeps single samples: well under 1% of pixels above it.
+func TestForSumKeepsNoiseDark(t *testing.T) {
+	img := noisePlane(800, 3200, 4)
+	r := AutoRange(img, DefaultLoPct, DefaultHiPct)
+	if got := r.ForSum(Window{0, 0, 1, 1}); got != r {
+		t.Errorf("one sample per pixel: %+v, want %+v unchanged", got, r)
+	}
+	win := Window{0, 0, 10, 40}
+	g := Grid{W: 80, H: 80}
+	NewPyramid(img).Sample(&g, win, ReduceSum)
+	s := r.ForSum(win)
+	above := 0
+	for _, v := range g.Pix {
+		if float64(v) > s.Lo {
+			above++
+		}
+	}
+	if above > len(g.Pix)/100 {
+		t.Errorf("%d of %d summed-noise pixels above the low end %.1f", above, len(g.Pix), s.Lo)
+	}
+	if s.Hi != r.Hi*40 {
+		t.Errorf("high end %.1f, want %.1f (a track along the 40-tick side)", s.Hi, r.Hi*40)
+	}
+}
