@@ -9,6 +9,7 @@ import (
 	"io"
 	"math"
 	"os"
+	"slices"
 	"strconv"
 	"strings"
 	"text/tabwriter"
@@ -770,4 +771,209 @@ func firstN(s []string, n int) []string {
 		return s
 	}
 	return append(s[:n:n], fmt.Sprintf("… %d more", len(s)-n))
+}
+
+// ---- validate ----
+
+func validateCommand() command {
+	return command{
+		name:    "validate",
+		summary: "efficiency and purity of an automated selection against the consensus, with intervals",
+		run: func(ctx context.Context, env *environ, args []string) error {
+			fs := newFlags(env, "validate", "(--db FILE | --labels FILE.csv) [--selection FILE.csv] --signal CLASS,... [flags]",
+				"Efficiency = selected signal events / all signal events; purity = selected signal events /\n"+
+					"all selected events, where signal means a consensus class in --signal. With --db the\n"+
+					"consensus is the campaign's stored one (adjudication first), or its majority vote when\n"+
+					"none is stored; with --labels it is the majority vote of the labels (ties left out).\n"+
+					"The selection is --selection FILE.csv (header event,selected,class,score) or, with --db,\n"+
+					"the campaign's own. Also per consensus class, and as curves over score thresholds.")
+			src := addLabelFlags(fs)
+			selPath := fs.String("selection", "", "selection CSV `FILE` (event,selected,class,score[,box columns])")
+			signal := fs.String("signal", "", "signal classes `CLASS,...` (required)")
+			cl := fs.Float64("cl", 0.95, "confidence level")
+			interval := fs.String("interval", "clopper-pearson", "binomial interval: clopper-pearson or wilson")
+			if err := fs.Parse(args); err != nil {
+				return err
+			}
+			sig := splitList(*signal)
+			if len(sig) == 0 {
+				return usageError{"validate needs --signal CLASS,..."}
+			}
+			im, err := agree.ParseIntervalMethod(*interval)
+			if err != nil {
+				return usageError{err.Error()}
+			}
+			if err := checkCL(*cl); err != nil {
+				return err
+			}
+			if *selPath == "" && src.db == "" {
+				return usageError{"validate needs --selection FILE.csv (or --db, whose campaign holds the selection)"}
+			}
+			ls, err := src.load(ctx)
+			if err != nil {
+				return err
+			}
+			defer ls.Close()
+			sel, err := loadSelection(ctx, ls, *selPath)
+			if err != nil {
+				return err
+			}
+			cons, method, err := validationConsensus(ctx, ls)
+			if err != nil {
+				return err
+			}
+			v, err := agree.Validate(sel, cons, sig, *cl, im)
+			if err != nil {
+				return err
+			}
+			if src.json {
+				return writeJSON(env.stdout, validateJSON(v, method))
+			}
+			printValidation(env.stdout, v, method)
+			return nil
+		},
+	}
+}
+
+func loadSelection(ctx context.Context, ls *labelSet, path string) ([]scan.Selection, error) {
+	if path != "" {
+		fh, err := os.Open(path)
+		if err != nil {
+			return nil, fmt.Errorf("read selection: %w", err)
+		}
+		defer fh.Close()
+		return scan.ReadSelection(fh, path)
+	}
+	evs, err := ls.st.Events(ctx, ls.campaign.ID)
+	if err != nil {
+		return nil, fmt.Errorf("read events: %w", err)
+	}
+	var sel []scan.Selection
+	for _, e := range evs {
+		if e.Selection != nil {
+			sel = append(sel, *e.Selection)
+		}
+	}
+	if len(sel) == 0 {
+		return nil, fmt.Errorf("campaign %q holds no selection output: give --selection FILE.csv", scan.CleanText(ls.campaign.Name))
+	}
+	return sel, nil
+}
+
+// validationConsensus is the stored consensus of a campaign, else the
+// majority vote of the labels.
+func validationConsensus(ctx context.Context, ls *labelSet) (map[string]string, string, error) {
+	out := map[string]string{}
+	if ls.st != nil {
+		stored, err := ls.st.Consensus(ctx, ls.campaign.ID, "")
+		if err != nil {
+			return nil, "", fmt.Errorf("read consensus: %w", err)
+		}
+		methods := map[string]bool{}
+		for _, c := range stored {
+			if c.Label.Class != "" {
+				out[c.EventID] = c.Label.Class
+				methods[c.Method] = true
+			}
+		}
+		if len(out) > 0 {
+			names := make([]string, 0, len(methods))
+			for m := range methods {
+				names = append(names, m)
+			}
+			slices.Sort(names)
+			return out, "stored " + strings.Join(names, "+"), nil
+		}
+	}
+	res, err := computeConsensus(ls.ratings, agree.Majority)
+	if err != nil {
+		return nil, "", err
+	}
+	for _, it := range res.Items {
+		if it.Label != agree.Missing {
+			out[it.Item] = res.Categories[it.Label]
+		}
+	}
+	return out, agree.Majority, nil
+}
+
+type propJSON struct {
+	K     int `json:"k"`
+	N     int `json:"n"`
+	Value num `json:"value"`
+	Low   num `json:"low"`
+	High  num `json:"high"`
+}
+
+func prop(p agree.Proportion) propJSON {
+	return propJSON{p.K, p.N, num(p.Value), num(p.Low), num(p.High)}
+}
+
+func validateJSON(v agree.Validation, method string) any {
+	type classJSON struct {
+		Class    string   `json:"class"`
+		Signal   bool     `json:"signal"`
+		Selected propJSON `json:"selected"`
+		Correct  propJSON `json:"class_call_correct"`
+	}
+	type pointJSON struct {
+		Threshold  float64  `json:"threshold"`
+		Efficiency propJSON `json:"efficiency"`
+		Purity     propJSON `json:"purity"`
+	}
+	classes := []classJSON{}
+	for _, c := range v.Classes {
+		classes = append(classes, classJSON{c.Class, c.Signal, prop(c.Selected), prop(c.Correct)})
+	}
+	curve := []pointJSON{}
+	for _, p := range v.Curve {
+		curve = append(curve, pointJSON{p.Threshold, prop(p.Efficiency), prop(p.Purity)})
+	}
+	return struct {
+		Consensus   string      `json:"consensus"`
+		Signal      []string    `json:"signal"`
+		CL          float64     `json:"cl"`
+		Interval    string      `json:"interval"`
+		Events      int         `json:"events"`
+		NoConsensus int         `json:"events_without_consensus"`
+		Efficiency  propJSON    `json:"efficiency"`
+		Purity      propJSON    `json:"purity"`
+		Classes     []classJSON `json:"classes"`
+		Curve       []pointJSON `json:"curve"`
+	}{method, v.Signal, v.CL, string(v.Method), v.Events, len(v.NoConsensus), prop(v.Efficiency), prop(v.Purity), classes, curve}
+}
+
+func printValidation(w io.Writer, v agree.Validation, method string) {
+	fmt.Fprintf(w, "selection against the %s consensus; signal %s; %s intervals at %g%%\n",
+		method, scan.CleanText(strings.Join(v.Signal, ", ")), v.Method, 100*v.CL)
+	fmt.Fprintf(w, "%d events with a selection output and a consensus; %d without a consensus left out\n\n", v.Events, len(v.NoConsensus))
+	tw := newTab(w)
+	fmt.Fprintf(tw, "efficiency\t%s\t%d/%d\t%s\n", f3(v.Efficiency.Value), v.Efficiency.K, v.Efficiency.N, ci3(v.Efficiency.Low, v.Efficiency.High))
+	fmt.Fprintf(tw, "purity\t%s\t%d/%d\t%s\n", f3(v.Purity.Value), v.Purity.K, v.Purity.N, ci3(v.Purity.Low, v.Purity.High))
+	tw.Flush()
+	fmt.Fprintln(w)
+	tw = newTab(w)
+	fmt.Fprintln(tw, "consensus class\tsignal\tselected\tfraction\tinterval\tcalled so, right\tinterval")
+	for _, c := range v.Classes {
+		s := ""
+		if c.Signal {
+			s = "yes"
+		}
+		fmt.Fprintf(tw, "%s\t%s\t%d/%d\t%s\t%s\t%d/%d\t%s\n", scan.CleanText(c.Class), s, c.Selected.K, c.Selected.N,
+			f3(c.Selected.Value), ci3(c.Selected.Low, c.Selected.High), c.Correct.K, c.Correct.N, ci3(c.Correct.Low, c.Correct.High))
+	}
+	tw.Flush()
+	fmt.Fprintln(w)
+	tw = newTab(w)
+	fmt.Fprintln(tw, "score ≥\tefficiency\tinterval\tpurity\tinterval")
+	step := max(1, len(v.Curve)/10)
+	for i, p := range v.Curve {
+		if i%step != 0 && i != len(v.Curve)-1 {
+			continue
+		}
+		fmt.Fprintf(tw, "%.4g\t%s\t%s\t%s\t%s\n", p.Threshold, f3(p.Efficiency.Value), ci3(p.Efficiency.Low, p.Efficiency.High),
+			f3(p.Purity.Value), ci3(p.Purity.Low, p.Purity.High))
+	}
+	tw.Flush()
+	fmt.Fprintf(w, "(%d thresholds in --json)\n", len(v.Curve))
 }

@@ -158,3 +158,45 @@ func TestConsensusCommandJSON(t *testing.T) {
 		t.Errorf("dawid-skene: converged %v, raters %d", m["converged"], len(m["raters"].([]any)))
 	}
 }
+
+func TestValidateCommandJSON(t *testing.T) {
+	// Majority consensus of double_scan.csv: numu-cc on e3, e6, e7, e8,
+	// none on e11, e12; the other six are tied and left out. The selection
+	// keeps e3, e6, e8 (numu-cc) and e12 (none): efficiency 3/4, purity 3/4.
+	// Wilson 95% for 3/4, by hand with z = 1.959964: centre
+	// (0.75 + z²/8)/(1 + z²/4) = 0.62753, half-width
+	// z·√(0.75·0.25/4 + z²/64)/(1 + z²/4) = 0.32689.
+	m := runJSON(t, "validate", "--labels", labelsFixture("double_scan.csv"), "--selection", labelsFixture("selection.csv"),
+		"--signal", "numu-cc", "--interval", "wilson")
+	eff := m["efficiency"].(map[string]any)
+	pur := m["purity"].(map[string]any)
+	if eff["k"] != 3.0 || eff["n"] != 4.0 || pur["k"] != 3.0 || pur["n"] != 4.0 {
+		t.Errorf("efficiency %v, purity %v; want 3/4 and 3/4", eff, pur)
+	}
+	if lo, hi := eff["low"].(float64), eff["high"].(float64); math.Abs(lo-0.30064) > 1e-4 || math.Abs(hi-0.95441) > 1e-4 {
+		t.Errorf("Wilson interval [%v, %v], want [0.30064, 0.95441]", lo, hi)
+	}
+	if m["events"] != 6.0 || m["events_without_consensus"] != 6.0 {
+		t.Errorf("events %v, without consensus %v; want 6 and 6", m["events"], m["events_without_consensus"])
+	}
+	if c := m["curve"].([]any); len(c) != 6 {
+		t.Errorf("curve has %d points, want 6 distinct scores", len(c))
+	}
+	// Clopper–Pearson is the default.
+	m = runJSON(t, "validate", "--labels", labelsFixture("double_scan.csv"), "--selection", labelsFixture("selection.csv"), "--signal", "numu-cc")
+	if m["interval"] != "clopper-pearson" {
+		t.Errorf("default interval %v", m["interval"])
+	}
+	for _, tc := range []struct {
+		args []string
+		want string
+	}{
+		{[]string{"validate", "--labels", labelsFixture("double_scan.csv"), "--selection", labelsFixture("selection.csv")}, "--signal"},
+		{[]string{"validate", "--labels", labelsFixture("double_scan.csv"), "--signal", "numu-cc"}, "--selection"},
+		{[]string{"validate", "--labels", labelsFixture("double_scan.csv"), "--selection", labelsFixture("double_scan.csv"), "--signal", "x"}, "double_scan.csv"},
+	} {
+		if _, err := runForTest(t, tc.args...); err == nil || !strings.Contains(err.Error(), tc.want) {
+			t.Errorf("%v: err = %v, want %q", tc.args[1:], err, tc.want)
+		}
+	}
+}

@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"math"
+	"os"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -148,5 +149,38 @@ func TestParseSimScanners(t *testing.T) {
 		if _, err := parseSimScanners(tc.in); err == nil || !strings.Contains(err.Error(), tc.want) {
 			t.Errorf("%q: err = %v, want %q", tc.in, err, tc.want)
 		}
+	}
+}
+
+// TestReportCommand: demo-scan then report writes one self-contained page
+// whose headline and every figure are there.
+func TestReportCommand(t *testing.T) {
+	ctx := context.Background()
+	path, _, truth := demoCampaign(t, 90)
+	scanners, _ := parseSimScanners("ana:0.95:0.9,ben:0.85:0.8:45,cleo:0.75:0.95:20")
+	st, c, err := openCampaign(ctx, path, "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := simulateScans(ctx, st, c, truth, scanners, "cosmic", 2); err != nil {
+		t.Fatal(err)
+	}
+	st.Close()
+	dir := filepath.Join(t.TempDir(), "out")
+	out, err := runForTest(t, "report", "--db", path, "--out", dir, "--bootstrap", "20", "--signal", "numu-cc")
+	if err != nil {
+		t.Fatalf("%v\n%s", err, out)
+	}
+	page, err := os.ReadFile(filepath.Join(dir, "index.html"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, want := range []string{`id="kappa"`, `id="pairs"`, `id="vs-consensus"`, `id="efficiency"`, `id="selection"`, `id="time"`, "<svg", "selection efficiency"} {
+		if !strings.Contains(string(page), want) {
+			t.Errorf("report lacks %q", want)
+		}
+	}
+	if !strings.Contains(out, "(6 figures)") {
+		t.Errorf("output %q", out)
 	}
 }
