@@ -40,6 +40,7 @@ func commands() []command {
 		consensusCommand(),
 		demoScanCommand(),
 		reportCommand(),
+		validateCommand(),
 		demoCommand(),
 		campaignCommand(),
 		exportCommand(),
