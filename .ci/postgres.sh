@@ -8,6 +8,11 @@
 # TPCSCAN_TEST_POSTGRES is already set, it does nothing. It never touches a
 # cluster it did not start. Works as root (the server then runs as the
 # "postgres" user) or as an ordinary user.
+#
+# The cluster is thrown away, so by default it skips flushing to disk
+# (fsync=off, synchronous_commit=off) to keep the tests quick. Set
+# TPCSCAN_PG_DURABLE=1 for production durability settings, e.g. before
+# running the benchmarks.
 
 tpcscan_pg_log() { echo "postgres.sh: $*" >&2; }
 
@@ -52,8 +57,11 @@ tpcscan_pg_start() {
 	fi
 	# No TCP listener at all: only a socket in our private directory, so
 	# trust authentication is reachable by no one else.
-	if ! "${runas[@]}" "$bindir/pg_ctl" -D "$dir/data" -l "$dir/server.log" -w -t 60 \
-		-o "-c listen_addresses='' -c unix_socket_directories='$dir' -c max_connections=200" \
+	local opts="-c listen_addresses='' -c unix_socket_directories='$dir' -c max_connections=200"
+	if [ "${TPCSCAN_PG_DURABLE:-0}" != 1 ]; then
+		opts="$opts -c fsync=off -c synchronous_commit=off -c full_page_writes=off"
+	fi
+	if ! "${runas[@]}" "$bindir/pg_ctl" -D "$dir/data" -l "$dir/server.log" -w -t 60 -o "$opts" \
 		start >/dev/null </dev/null; then
 		cat "$dir/server.log" >&2; tpcscan_pg_log "pg_ctl start failed"; return 1
 	fi

@@ -77,6 +77,7 @@ func work(ctx context.Context, s store.Store, campaignID int64, side string, fir
 // both. Every acknowledged action must be stored exactly once, and no
 // event may reach more scanners than K.
 func TestTwoProcesses(t *testing.T) {
+	t.Parallel()
 	s, dsn := open(t)
 	ctx := context.Background()
 	const k, nEvents = 2, 1500

@@ -10,6 +10,7 @@ import (
 	"github.com/jackc/pgx/v5"
 
 	"github.com/tpcscan/tpcscan/scan"
+	"github.com/tpcscan/tpcscan/store/postgres/pgtest"
 )
 
 // TestKilledConnection terminates a server backend in the middle of a
@@ -17,6 +18,7 @@ import (
 // connection): the acknowledged draft stays, and the interrupted save,
 // which had committed nothing, is run again and stored exactly once.
 func TestKilledConnection(t *testing.T) {
+	t.Parallel()
 	s, dsn := open(t)
 	ctx := context.Background()
 	id, err := s.CreateCampaign(ctx, testCampaign("kill", 1, false), testEvents(3))
@@ -89,8 +91,16 @@ func TestKilledConnection(t *testing.T) {
 // while four sessions save: whatever was acknowledged is stored exactly
 // once, and the sessions keep working.
 func TestKillsUnderLoad(t *testing.T) {
-	s, dsn := open(t)
+	t.Parallel()
+	// A name of our own, so that the killing spares other tests' backends.
+	const app = "tpcscan-kills-under-load"
+	dsn := pgtest.DSN(t) + "&application_name=" + app
 	ctx := context.Background()
+	s, err := Open(ctx, dsn)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer s.Close()
 	id, err := s.CreateCampaign(ctx, testCampaign("kills", 1, false), testEvents(200))
 	if err != nil {
 		t.Fatal(err)
@@ -136,7 +146,7 @@ func TestKillsUnderLoad(t *testing.T) {
 	for range kill {
 		var n int
 		err := admin.QueryRow(ctx, `SELECT count(pg_terminate_backend(pid)) FROM pg_stat_activity
-			WHERE datname = current_database() AND pid <> pg_backend_pid() AND application_name = 'tpcscan'`).Scan(&n)
+			WHERE datname = current_database() AND pid <> pg_backend_pid() AND application_name = $1`, app).Scan(&n)
 		if err != nil {
 			t.Fatal(err)
 		}

@@ -46,6 +46,7 @@ func submit(class string) scan.Revision {
 }
 
 func TestCampaignRoundTrip(t *testing.T) {
+	t.Parallel()
 	s, _ := open(t)
 	ctx := context.Background()
 	c := testCampaign("alpha", 2, false)
@@ -88,6 +89,7 @@ func TestCampaignRoundTrip(t *testing.T) {
 
 // TestAssignmentAndRevisions follows two scanners through a K=2 campaign.
 func TestAssignmentAndRevisions(t *testing.T) {
+	t.Parallel()
 	s, _ := open(t)
 	ctx := context.Background()
 	id, err := s.CreateCampaign(ctx, testCampaign("beta", 2, false), testEvents(3))
@@ -163,6 +165,7 @@ func TestAssignmentAndRevisions(t *testing.T) {
 // TestSkipAndAdaptive checks the replacement pass after a skip and the
 // adaptive extra pass after a disagreement.
 func TestSkipAndAdaptive(t *testing.T) {
+	t.Parallel()
 	s, _ := open(t)
 	ctx := context.Background()
 	id, err := s.CreateCampaign(ctx, testCampaign("gamma", 2, true), testEvents(1))
@@ -202,6 +205,7 @@ func TestSkipAndAdaptive(t *testing.T) {
 }
 
 func TestConsensusAndResume(t *testing.T) {
+	t.Parallel()
 	s, _ := open(t)
 	ctx := context.Background()
 	id, err := s.CreateCampaign(ctx, testCampaign("delta", 1, false), testEvents(3))
@@ -248,6 +252,7 @@ func TestConsensusAndResume(t *testing.T) {
 
 // TestTooNew: a schema from a newer tpcscan is refused, not touched.
 func TestTooNew(t *testing.T) {
+	t.Parallel()
 	s, dsn := open(t)
 	ctx := context.Background()
 	if err := pgtest.Exec(ctx, dsn, "INSERT INTO schema_migrations (version, name) VALUES (99, '099_future.sql')"); err != nil {
@@ -261,6 +266,7 @@ func TestTooNew(t *testing.T) {
 
 // TestConcurrentOpen: servers starting together upgrade the schema once.
 func TestConcurrentOpen(t *testing.T) {
+	t.Parallel()
 	dsn := pgtest.DSN(t)
 	errs := make(chan error, 4)
 	for range 4 {
@@ -281,6 +287,7 @@ func TestConcurrentOpen(t *testing.T) {
 
 // TestRevisionsAppendOnly: the database itself refuses to rewrite history.
 func TestRevisionsAppendOnly(t *testing.T) {
+	t.Parallel()
 	s, dsn := open(t)
 	ctx := context.Background()
 	id, err := s.CreateCampaign(ctx, testCampaign("eps", 1, false), testEvents(1))
