@@ -10,6 +10,7 @@ import (
 	"sync"
 	"time"
 
+	"github.com/charmbracelet/bubbles/cursor"
 	"github.com/charmbracelet/bubbles/key"
 	"github.com/charmbracelet/bubbles/textinput"
 	"github.com/charmbracelet/bubbles/viewport"
@@ -73,6 +74,9 @@ func newSession(m *Model, opts Options) *session {
 		events: map[string]*scan.Selection{}, saver: &saver{}}
 	s.input = textinput.New()
 	s.input.CharLimit = 500
+	// A steady cursor: blinking would redraw the line twice a second over
+	// slow SSH links.
+	s.input.Cursor.SetMode(cursor.CursorStatic)
 	s.instr = viewport.New(0, 0)
 	return s
 }
@@ -505,22 +509,25 @@ func (s *session) doRedo() tea.Cmd {
 	return s.save(s.editState(), nil)
 }
 
-// missing lists what the schema requires before a submit.
+// missing lists what the schema requires before a submit, in the
+// scanner's terms (scan.Schema.CheckLabel has the final word).
 func (s *session) missing() []string {
 	var out []string
+	sc := s.camp.Schema
 	if s.verify() {
 		switch s.label.Verdict {
 		case "":
 			out = append(out, fmt.Sprintf("agree (%s) or disagree (%s)", s.m.keys.Agree.Help().Key, s.m.keys.Disagree.Help().Key))
 		case "disagree":
 			if s.label.Class == "" {
-				out = append(out, "the correct class")
+				out = append(out, "the correct class ("+hotkeyList(sc.Classes)+")")
 			}
 		}
-		return out
+	} else if s.label.Class == "" {
+		out = append(out, "a class ("+hotkeyList(sc.Classes)+")")
 	}
-	if s.label.Class == "" {
-		out = append(out, "a class ("+hotkeyList(s.camp.Schema.Classes)+")")
+	if len(sc.Confidence) > 0 && s.label.Confidence == "" {
+		out = append(out, "a confidence ("+hotkeyList(sc.Confidence)+")")
 	}
 	return out
 }
@@ -541,6 +548,10 @@ func (s *session) submit() tea.Cmd {
 	}
 	if miss := s.missing(); len(miss) > 0 {
 		s.m.status = "cannot submit yet: choose " + strings.Join(miss, " and ")
+		return nil
+	}
+	if err := s.camp.Schema.CheckLabel(s.label, true); err != nil {
+		s.m.status = "cannot submit: " + scan.CleanText(err.Error())
 		return nil
 	}
 	s.m.status = ""

@@ -35,6 +35,7 @@ func commands() []command {
 	return []command{
 		checkCommand(),
 		viewCommand(),
+		scanCommand(),
 		agreeCommand(),
 		efficiencyCommand(),
 		consensusCommand(),
@@ -99,7 +100,7 @@ func run(ctx context.Context, env *environ, args []string) error {
 }
 
 // defaultCommand runs when tpcscan is started without arguments.
-const defaultCommand = "check"
+const defaultCommand = "scan"
 
 func printUsage(w io.Writer) {
 	fmt.Fprintln(w, "tpcscan: a hand-scanning station for LArTPC wire-plane events")
