@@ -66,11 +66,16 @@ func Open(c *gossh.Client, term string, env map[string]string, w, h int) (*Termi
 	return &Terminal{Session: s, In: in, Out: out}, nil
 }
 
-// Stream collects a session's output and lets a reader wait for text.
+// Stream collects a session's output and lets a reader wait for text,
+// either in the raw bytes or in the text with escape sequences removed
+// (a UI may style each character on its own).
 type Stream struct {
 	mu     sync.Mutex
 	buf    bytes.Buffer
-	cursor int           // WaitFor searches from here
+	cursor int // WaitFor searches from here
+	plain  bytes.Buffer
+	pcur   int // WaitForText searches from here
+	strip  Stripper
 	grew   chan struct{} // closed and replaced on every write
 }
 
@@ -81,40 +86,109 @@ func (s *Stream) Write(p []byte) (int, error) {
 	s.mu.Lock()
 	defer s.mu.Unlock()
 	s.buf.Write(p)
+	s.plain.Write(s.strip.Strip(p))
 	close(s.grew)
 	s.grew = make(chan struct{})
 	return len(p), nil
 }
 
-// WaitFor waits until want appears after the previous match and moves
-// past it. The error quotes the end of the output.
+// WaitForText waits until want appears in the text without escape
+// sequences, after the previous WaitForText match.
+func (s *Stream) WaitForText(want string, d time.Duration) error {
+	_, err := s.wait(d, true, func(b []byte) (int, int) {
+		return bytes.Index(b, []byte(want)), len(want)
+	}, want)
+	return err
+}
+
+// WaitForTextFunc is WaitForFunc on the text without escape sequences.
+func (s *Stream) WaitForTextFunc(d time.Duration, what string, find func([]byte) (int, int)) ([]byte, error) {
+	return s.wait(d, true, find, what)
+}
+
+// Stripper removes ANSI escape sequences (ECMA-48 CSI, OSC, DCS, SOS, PM,
+// APC and two-byte ESC sequences) from a byte stream split anywhere.
+type Stripper struct{ state int }
+
+// Strip returns p without escape sequences, carrying state across calls.
+func (st *Stripper) Strip(p []byte) []byte {
+	const (
+		text = iota
+		esc
+		csi
+		str
+		strEsc
+	)
+	out := make([]byte, 0, len(p))
+	for _, b := range p {
+		switch st.state {
+		case text:
+			if b == 0x1b {
+				st.state = esc
+			} else {
+				out = append(out, b)
+			}
+		case esc:
+			switch b {
+			case '[':
+				st.state = csi
+			case ']', 'P', 'X', '^', '_':
+				st.state = str
+			default:
+				st.state = text
+			}
+		case csi:
+			if b >= 0x40 && b <= 0x7e {
+				st.state = text
+			}
+		case str:
+			if b == 0x07 {
+				st.state = text
+			} else if b == 0x1b {
+				st.state = strEsc
+			}
+		case strEsc:
+			st.state = str
+			if b == '\\' {
+				st.state = text
+			}
+		}
+	}
+	return out
+}
+
+// WaitFor waits until want appears in the raw output after the previous
+// WaitFor match and moves past it. The error quotes the end of the output.
 func (s *Stream) WaitFor(want string, d time.Duration) error {
-	_, err := s.wait(d, func(b []byte) (int, int) {
-		i := bytes.Index(b, []byte(want))
-		return i, len(want)
+	_, err := s.wait(d, false, func(b []byte) (int, int) {
+		return bytes.Index(b, []byte(want)), len(want)
 	}, want)
 	return err
 }
 
 // WaitForFunc waits until find reports a match (start index and length,
-// or -1) in the output after the previous match, and returns the match.
+// or -1) in the raw output after the previous match, and returns it.
 func (s *Stream) WaitForFunc(d time.Duration, what string, find func([]byte) (int, int)) ([]byte, error) {
-	return s.wait(d, find, what)
+	return s.wait(d, false, find, what)
 }
 
-func (s *Stream) wait(d time.Duration, find func([]byte) (int, int), what string) ([]byte, error) {
+func (s *Stream) wait(d time.Duration, plain bool, find func([]byte) (int, int), what string) ([]byte, error) {
 	deadline := time.NewTimer(d)
 	defer deadline.Stop()
+	buf, cur := &s.buf, &s.cursor
+	if plain {
+		buf, cur = &s.plain, &s.pcur
+	}
 	for {
 		s.mu.Lock()
-		rest := s.buf.Bytes()[s.cursor:]
+		rest := buf.Bytes()[*cur:]
 		i, n := find(rest)
 		var match []byte
 		if i >= 0 {
 			match = append(match, rest[i:i+n]...)
-			s.cursor += i + n
+			*cur += i + n
 		}
-		grew, tail := s.grew, s.buf.Bytes()[max(0, s.buf.Len()-300):]
+		grew, tail := s.grew, buf.Bytes()[max(0, buf.Len()-300):]
 		s.mu.Unlock()
 		if i >= 0 {
 			return match, nil
@@ -141,14 +215,18 @@ func (s *Stream) String() string {
 	return s.buf.String()
 }
 
-// Trim forgets the output before the last match, so that a long run keeps
-// only what it has not read yet.
+// Trim forgets the output before the last matches, so that a long run
+// keeps only what it has not read yet.
 func (s *Stream) Trim() {
 	s.mu.Lock()
 	defer s.mu.Unlock()
-	s.buf.Next(s.cursor)
-	rest := append([]byte(nil), s.buf.Bytes()...)
-	s.buf.Reset()
-	s.buf.Write(rest)
-	s.cursor = 0
+	for _, b := range []struct {
+		buf *bytes.Buffer
+		cur *int
+	}{{&s.buf, &s.cursor}, {&s.plain, &s.pcur}} {
+		rest := append([]byte(nil), b.buf.Bytes()[*b.cur:]...)
+		b.buf.Reset()
+		b.buf.Write(rest)
+		*b.cur = 0
+	}
 }

@@ -1,0 +1,231 @@
+package main
+
+import (
+	"bytes"
+	"context"
+	"crypto/ed25519"
+	"crypto/rand"
+	"fmt"
+	"io"
+	"log/slog"
+	"net"
+	"path/filepath"
+	"regexp"
+	"strings"
+	"testing"
+	"time"
+
+	gossh "golang.org/x/crypto/ssh"
+
+	"github.com/tpcscan/tpcscan/render"
+	"github.com/tpcscan/tpcscan/scan"
+	"github.com/tpcscan/tpcscan/scan/dataset"
+	"github.com/tpcscan/tpcscan/scan/sim"
+	"github.com/tpcscan/tpcscan/store"
+	"github.com/tpcscan/tpcscan/store/backend"
+	"github.com/tpcscan/tpcscan/ui/serve"
+	"github.com/tpcscan/tpcscan/ui/serve/servetest"
+)
+
+const serveWait = 30 * time.Second // a deadline for failures, never a pause
+
+// station is the real scanning station served on 127.0.0.1:0 over a
+// generated demo dataset and a fresh SQLite campaign.
+type station struct {
+	addr     string
+	hostKey  gossh.PublicKey
+	st       store.Store
+	campaign int64
+	keys     map[string]gossh.Signer
+	ends     chan serve.SessionEnd
+}
+
+func startStation(t *testing.T, names ...string) *station {
+	t.Helper()
+	ctx := context.Background()
+	dir := filepath.Join(t.TempDir(), "tarn")
+	if err := sim.WriteDataset(ctx, dir, sim.Options{Events: 4, Seed: 11, Size: "demo"}, nil); err != nil {
+		t.Fatal(err)
+	}
+	ds, err := dataset.Open(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	st, err := backend.Open(ctx, filepath.Join(t.TempDir(), "scan.db"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { st.Close() })
+	var events []scan.CampaignEvent
+	for _, e := range ds.Events() {
+		events = append(events, scan.CampaignEvent{EventID: e.ID})
+	}
+	s := &station{st: st, keys: map[string]gossh.Signer{}, ends: make(chan serve.SessionEnd, 64)}
+	s.campaign, err = st.CreateCampaign(ctx, scan.Campaign{Name: "shift", Dataset: dir, Mode: scan.ModeLabel,
+		PerEvent: 2, Blind: true, Seed: 3, Schema: scan.DefaultSchema()}, events)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var roster strings.Builder
+	for _, n := range names {
+		signer, text := testKey(t)
+		s.keys[n] = signer
+		fmt.Fprintf(&roster, "%s scanner %s\n", n, text)
+	}
+	ro, err := serve.ParseRoster(strings.NewReader(roster.String()), "crew")
+	if err != nil {
+		t.Fatal(err)
+	}
+	host, _ := testKey(t)
+	s.hostKey = host.PublicKey()
+	srv, err := serve.New(serve.Config{
+		Roster: ro, HostKey: host, DetectTier: render.DetectTier,
+		Factory: stationFactory(st, ds, s.campaign), Logger: slog.New(slog.DiscardHandler),
+		OnSessionEnd: func(e serve.SessionEnd) { s.ends <- e },
+	})
+	if err != nil {
+		t.Fatal(err)
+	}
+	ln, err := net.Listen("tcp", "127.0.0.1:0")
+	if err != nil {
+		t.Fatal(err)
+	}
+	s.addr = ln.Addr().String()
+	sctx, cancel := context.WithCancel(ctx)
+	served := make(chan error, 1)
+	go func() { served <- srv.Serve(sctx, ln) }()
+	t.Cleanup(func() {
+		cancel()
+		if err := <-served; err != nil {
+			t.Errorf("serve: %v", err)
+		}
+	})
+	return s
+}
+
+func testKey(t testing.TB) (gossh.Signer, string) {
+	t.Helper()
+	_, priv, err := ed25519.GenerateKey(rand.Reader)
+	if err != nil {
+		t.Fatal(err)
+	}
+	s, err := gossh.NewSignerFromKey(priv)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return s, strings.TrimSpace(string(gossh.MarshalAuthorizedKey(s.PublicKey())))
+}
+
+// scannerTerm is one scanner's ssh -t session on the station.
+type scannerTerm struct {
+	t    *testing.T
+	conn net.Conn
+	tm   *servetest.Terminal
+}
+
+func (s *station) connect(t *testing.T, name string) *scannerTerm {
+	t.Helper()
+	c, conn, err := servetest.Dial(s.addr, s.hostKey, name, serveWait, gossh.PublicKeys(s.keys[name]))
+	if err != nil {
+		t.Fatalf("dial as %s: %v", name, err)
+	}
+	t.Cleanup(func() { c.Close() })
+	tm, err := servetest.Open(c, "xterm-256color", nil, 160, 45)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return &scannerTerm{t: t, conn: conn, tm: tm}
+}
+
+func (st *scannerTerm) send(keys string) {
+	st.t.Helper()
+	if _, err := io.WriteString(st.tm.In, keys); err != nil {
+		st.t.Fatalf("send %q: %v", keys, err)
+	}
+}
+
+func (st *scannerTerm) expect(text string) {
+	st.t.Helper()
+	if err := st.tm.Out.WaitForText(text, serveWait); err != nil {
+		st.t.Fatal(err)
+	}
+}
+
+// wiresRe finds a plane's wire range in the header, e.g. "wires 250–650".
+var wiresRe = regexp.MustCompile(`wires \d+–\d+`)
+
+// view waits for the next header with a wire range and returns it.
+func (st *scannerTerm) view() string {
+	st.t.Helper()
+	m, err := st.tm.Out.WaitForTextFunc(serveWait, "wires N–M", func(b []byte) (int, int) {
+		loc := wiresRe.FindIndex(b)
+		if loc == nil {
+			return -1, 0
+		}
+		return loc[0], loc[1] - loc[0]
+	})
+	if err != nil {
+		st.t.Fatal(err)
+	}
+	return string(m)
+}
+
+// TestServeStation drives the real station through the SSH server: two
+// scanners label at once, one drops mid-event and resumes where it was.
+func TestServeStation(t *testing.T) {
+	s := startStation(t, "ana", "ben")
+	ana, ben := s.connect(t, "ana"), s.connect(t, "ben")
+	for _, sc := range []*scannerTerm{ana, ben} {
+		sc.expect("ind1 wire ") // the cursor line: the event is on screen
+		sc.send("1")
+		sc.expect("saved ✓")
+		sc.send("C")
+		sc.expect("3 certain ✓")
+		sc.send("\x13") // ctrl+s: submit, and the next event comes
+		sc.expect("· assigned")
+	}
+	ctx := context.Background()
+	for _, who := range []string{"ana", "ben"} {
+		ps, err := s.st.ScannerPasses(ctx, s.campaign, who)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if len(ps) < 1 || ps[0].State != scan.PassSubmitted || ps[0].Label.Class != "numu-cc" || ps[0].Label.Confidence == "" {
+			t.Errorf("%s's first pass: %+v", who, ps)
+		}
+	}
+
+	// ben drafts a class, zooms in, and loses the link.
+	ben.send("2")
+	ben.expect("saved ✓")
+	ben.send("+")
+	before := ben.view()
+	for before == "" {
+		before = ben.view()
+	}
+	ben.conn.Close()
+	select {
+	case e := <-s.ends:
+		if e.Scanner != "ben" || e.Reason != serve.StopDisconnect {
+			t.Fatalf("session end %+v", e)
+		}
+	case <-time.After(serveWait):
+		t.Fatal("ben's session did not end")
+	}
+	ps, err := s.st.ScannerPasses(ctx, s.campaign, "ben")
+	if err != nil {
+		t.Fatal(err)
+	}
+	last := ps[len(ps)-1]
+	if last.State != scan.PassDraft || last.Label.Class != "nue-cc" {
+		t.Errorf("after the drop ben's pass is %s with %+v", last.State, last.Label)
+	}
+	again := s.connect(t, "ben")
+	again.expect(last.EventID)
+	if got := again.view(); got != before {
+		t.Errorf("resumed view %q, want %q as before the drop", got, before)
+	}
+	if !bytes.Contains([]byte(again.tm.Out.String()), []byte("2 νe CC")) {
+		t.Error("resumed screen does not show the drafted class")
+	}
+}
