@@ -350,18 +350,24 @@ func (g *generator) interaction(class string) vec {
 	return v
 }
 
+// protonBonusMeV is added to the hadronic energy the protons share, a
+// stand-in for nucleons knocked out of the argon nucleus on the way out
+// (invented, like the rest of the final-state model).
+const protonBonusMeV = 120
+
 // protons emits 0–3 protons (probabilities w) sharing the hadronic energy
-// had (MeV): each gets 25 MeV plus an exponential share (mean 90 MeV);
-// the first is cut to the budget, later ones that no longer fit are dropped.
+// had (MeV) plus protonBonusMeV: each gets 20 MeV plus an exponential share
+// (mean 70 MeV); the first is cut to the budget, later ones that no longer
+// fit are dropped.
 func (g *generator) protons(v vec, had float64, w [4]float64) {
 	u, n := g.r.Float64(), 0
 	for n < 3 && u >= w[n] {
 		u -= w[n]
 		n++
 	}
-	budget := min(had, 1200)
+	budget := min(had+protonBonusMeV, 1200)
 	for j := range n {
-		t := 25 + expo(g.r, 90)
+		t := 20 + expo(g.r, 70)
 		if t > budget {
 			if j > 0 || budget < 25 {
 				break
