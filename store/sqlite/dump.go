@@ -24,7 +24,7 @@ func (s *Store) Dump(ctx context.Context, campaignID int64) (store.CampaignDump,
 		var err error
 		d.Campaign, _, err = scanCampaign(tx.QueryRowContext(ctx, `SELECT `+campaignCols+` FROM campaigns WHERE id = ?`, campaignID))
 		if errors.Is(err, sql.ErrNoRows) {
-			return store.ErrNotFound
+			return fmt.Errorf("campaign %d: %w", campaignID, store.ErrNotFound)
 		}
 		if err != nil {
 			return err
@@ -61,7 +61,7 @@ func dumpEvents(ctx context.Context, tx *sql.Tx, id int64) ([]store.EventDump, e
 			return nil, err
 		}
 		if e.Selection, err = decodeSelection(sel); err != nil {
-			return nil, err
+			return nil, fmt.Errorf("event %s: %w", e.EventID, err)
 		}
 		evs = append(evs, e)
 	}
