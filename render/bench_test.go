@@ -4,6 +4,7 @@ import (
 	"encoding/binary"
 	"os"
 	"path/filepath"
+	"runtime"
 	"slices"
 	"testing"
 	"time"
@@ -84,14 +85,17 @@ func BenchmarkFrame(b *testing.B) {
 		for _, z := range benchZooms {
 			b.Run(tier.String()+"/"+z.name, func(b *testing.B) {
 				b.ReportAllocs()
+				runtime.LockOSThread()
+				defer runtime.UnlockOSThread()
 				var n int
-				times := make([]time.Duration, 0, b.N)
+				var wall, cpu []time.Duration
 				for b.Loop() {
-					t0 := time.Now()
+					t0, c0 := time.Now(), threadCPU()
 					n = linesBytes(f.draw(z.z, tier))
-					times = append(times, time.Since(t0))
+					wall, cpu = append(wall, time.Since(t0)), append(cpu, threadCPU()-c0)
 				}
-				b.ReportMetric(float64(median(times).Microseconds()), "median-µs")
+				b.ReportMetric(float64(median(wall).Microseconds()), "median-µs")
+				b.ReportMetric(float64(median(cpu).Microseconds()), "median-cpu-µs")
 				b.ReportMetric(float64(n), "bytes/frame")
 			})
 		}
