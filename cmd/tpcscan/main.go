@@ -47,6 +47,7 @@ func commands() []command {
 		exportCommand(),
 		serveCommand(),
 		migrateCommand(),
+		adjudicateCommand(),
 	}
 }
 
