@@ -348,11 +348,53 @@ func runAgree(ctx context.Context, env *environ, ls *labelSet, asJSON bool, a ag
 		}
 		ci = &c
 	}
+	var spatial []agree.SpatialPair
+	if ls.passes != nil {
+		spatial = agree.Spatial(agree.PassLabels(ls.passes), tab.Raters)
+	}
 	if asJSON {
-		return writeJSON(env.stdout, agreeJSON(res, ci, a))
+		out := agreeJSON(res, ci, a)
+		for _, sp := range spatial {
+			out.Spatial = append(out.Spatial, spatialJSON{sp.A, sp.B, sp.Boxes, num(sp.MeanIoU), num(sp.MedianIoU),
+				sp.Vertices, num(sp.MeanVertexCm), num(sp.MedianCm)})
+		}
+		return writeJSON(env.stdout, out)
 	}
 	printAgree(env.stdout, res, ci)
+	printSpatial(env.stdout, spatial)
 	return nil
+}
+
+// spatialJSON is where two scanners' marks agree: box IoU per (event,
+// plane) where both drew a box, 3-D vertex distance where both vertices
+// triangulated.
+type spatialJSON struct {
+	A              string `json:"a"`
+	B              string `json:"b"`
+	Boxes          int    `json:"boxes"`
+	MeanIoU        num    `json:"mean_iou"`
+	MedianIoU      num    `json:"median_iou"`
+	Vertices       int    `json:"vertices"`
+	MeanVertexCm   num    `json:"mean_vertex_distance_cm"`
+	MedianVertexCm num    `json:"median_vertex_distance_cm"`
+}
+
+func printSpatial(w io.Writer, sp []agree.SpatialPair) {
+	found := false
+	for _, p := range sp {
+		found = found || p.Boxes > 0 || p.Vertices > 0
+	}
+	if !found {
+		return
+	}
+	fmt.Fprintln(w)
+	tw := newTab(w)
+	fmt.Fprintln(tw, "scanner A\tscanner B\tboxes\tmean IoU\tmedian IoU\tvertices\tmean distance (cm)\tmedian (cm)")
+	for _, p := range sp {
+		fmt.Fprintf(tw, "%s\t%s\t%d\t%s\t%s\t%d\t%s\t%s\n", scan.CleanText(p.A), scan.CleanText(p.B), p.Boxes,
+			f3(p.MeanIoU), f3(p.MedianIoU), p.Vertices, f1(p.MeanVertexCm), f1(p.MedianCm))
+	}
+	tw.Flush()
 }
 
 type pairJSON struct {
@@ -379,6 +421,7 @@ type agreeOut struct {
 	KrippendorffAlpha num              `json:"krippendorff_alpha"`
 	Bootstrap         *bootstrapJSON   `json:"bootstrap,omitempty"`
 	Intervals         map[string][]num `json:"intervals,omitempty"`
+	Spatial           []spatialJSON    `json:"spatial,omitempty"`
 }
 
 type bootstrapJSON struct {

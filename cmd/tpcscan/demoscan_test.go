@@ -10,6 +10,7 @@ import (
 	"testing"
 
 	"github.com/tpcscan/tpcscan/scan"
+	"github.com/tpcscan/tpcscan/scan/detector"
 	"github.com/tpcscan/tpcscan/store/sqlite"
 )
 
@@ -182,5 +183,46 @@ func TestReportCommand(t *testing.T) {
 	}
 	if !strings.Contains(out, "(6 figures)") {
 		t.Errorf("output %q", out)
+	}
+}
+
+// TestAgreeSpatial: two scanners' boxes and vertices on one event; hand
+// arithmetic: 10×10 boxes overlapping 5×10 → IoU 50/150 = 1/3; vertices
+// (0,0,0) and (3,4,0) cm → 5 cm.
+func TestAgreeSpatial(t *testing.T) {
+	ctx := context.Background()
+	path, _, _ := demoCampaign(t, 2)
+	st, c, err := openCampaign(ctx, path, "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	box := func(w0 float64) scan.Mark {
+		return scan.Mark{Kind: scan.MarkBox, Plane: detector.Collection,
+			Points: []detector.PlanePoint{{Wire: w0, Tick: 100}, {Wire: w0 + 10, Tick: 110}}}
+	}
+	marks := map[string]scan.Label{
+		"ana": {Class: "numu-cc", Confidence: "3", Marks: []scan.Mark{box(0)}, Vertex3D: &detector.Point{}},
+		"ben": {Class: "nue-cc", Confidence: "3", Marks: []scan.Mark{box(5)}, Vertex3D: &detector.Point{X: 3, Y: 4}},
+	}
+	for _, who := range []string{"ana", "ben"} {
+		for range 2 {
+			p, err := st.NextPass(ctx, c.ID, who)
+			if err != nil {
+				t.Fatal(err)
+			}
+			l := marks[who]
+			if p.EventID != "ev0000" {
+				l = scan.Label{Class: "cosmic", Confidence: "3"}
+			}
+			if _, err := st.SaveRevision(ctx, p.ID, who, scan.Revision{State: scan.PassSubmitted, Label: l, Seconds: 10}); err != nil {
+				t.Fatal(err)
+			}
+		}
+	}
+	st.Close()
+	m := runJSON(t, "agree", "--db", path)
+	sp := m["spatial"].([]any)[0].(map[string]any)
+	if sp["boxes"] != 1.0 || math.Abs(sp["mean_iou"].(float64)-1.0/3) > 1e-12 || sp["mean_vertex_distance_cm"] != 5.0 {
+		t.Errorf("spatial = %v", sp)
 	}
 }

@@ -144,9 +144,11 @@ func TestKrippendorffAlpha(t *testing.T) {
 }
 
 func TestKrippendorffCoincidences(t *testing.T) {
-	// Krippendorff (2011): the worked example has n = 40 pairable values,
-	// and o_11 = 6 + 1/3·... ; we check the total and the symmetry, which
-	// the definition fixes: Σ o_ck = number of pairable values.
+	// Krippendorff (2011): the worked example has n = 40 pairable values
+	// (units 1–11; unit 12 has one value). The coincidence matrix is
+	// symmetric and sums to n. Hand arithmetic for o_11: unit 1 (three 1s)
+	// gives 3·2/2 = 3, unit 8 (three 1s and a 2) 3·2/3 = 2, unit 11 (two
+	// 1s) 2·1/1 = 2, unit 6 (one 1) 0: o_11 = 7.
 	o := Coincidences(krippendorffTable(t))
 	var n float64
 	for c := range o {
@@ -158,6 +160,7 @@ func TestKrippendorffCoincidences(t *testing.T) {
 		}
 	}
 	near(t, "n", n, 40, 1e-12)
+	near(t, "o_11", o[0][0], 7, 1e-12)
 }
 
 // TestCohenKappa: the two-rater example of the English Wikipedia article

@@ -318,3 +318,33 @@ func TestNewTableErrors(t *testing.T) {
 }
 
 func contains(s, sub string) bool { return strings.Contains(s, sub) }
+
+func TestSummarize(t *testing.T) {
+	// Two scanners, the Wikipedia "Cohen's kappa" 2×2 table (from memory:
+	// 20 yes/yes, 5 yes/no, 10 no/yes, 15 no/no; κ = 0.4), with "no" as the
+	// absent label: n1 = 25, n2 = 30, m = 20.
+	var rs []Rating
+	add := func(n int, a, b string) {
+		for range n {
+			id := strconv.Itoa(len(rs))
+			rs = append(rs, Rating{id, "a", a}, Rating{id, "b", b})
+		}
+	}
+	add(20, "yes", "yes")
+	add(5, "yes", "no")
+	add(10, "no", "yes")
+	add(15, "no", "no")
+	tab, err := NewTable(rs, nil)
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := Summarize(tab, []string{"no"})
+	near(t, "mean kappa", s.MeanKappa, 0.4, 1e-12)
+	near(t, "percent agreement", s.PercentAgreement, 0.7, 1e-12)
+	if s.Events != 50 || s.Scanners != 2 || s.Contested != 15 {
+		t.Errorf("events %d, scanners %d, contested %d; want 50, 2, 15", s.Events, s.Scanners, s.Contested)
+	}
+	if len(s.Efficiency) != 1 || s.Efficiency[0].N1 != 25 || s.Efficiency[0].N2 != 30 || s.Efficiency[0].M != 20 {
+		t.Errorf("efficiency %+v", s.Efficiency)
+	}
+}

@@ -84,7 +84,7 @@ func Build(ctx context.Context, in Input) (*Report, error) {
 	if err := r.efficiency(tab, in); err != nil {
 		return nil, err
 	}
-	if err := r.selection(in, cons, tab.Categories); err != nil {
+	if err := r.selection(in, cons, tab); err != nil {
 		return nil, err
 	}
 	if err := r.times(in.Passes); err != nil {
@@ -270,7 +270,8 @@ func (r *Report) efficiency(tab *agree.Table, in Input) error {
 	return nil
 }
 
-func (r *Report) selection(in Input, cons map[string]string, order []string) error {
+func (r *Report) selection(in Input, cons map[string]string, tab *agree.Table) error {
+	order := tab.Categories
 	var sel []scan.Selection
 	for _, e := range in.Events {
 		if e.Selection != nil {
@@ -309,8 +310,19 @@ func (r *Report) selection(in Input, cons map[string]string, order []string) err
 	if err != nil {
 		return err
 	}
-	r.Figures = append(r.Figures, Figure{ID: "selection", Title: "The automated selection against the consensus", SVGs: []template.HTML{curve, heat},
-		Definition: fmt.Sprintf("Signal: consensus class %s. Efficiency = selected signal events / all signal events; purity = selected signal events / all selected events, over the %d events with both a selection output and a consensus. The curves redefine the selection as score ≥ threshold; the dotted line marks the selection's own operating point.", joinShort(signal), v.Events),
+	svgs := []template.HTML{curve, heat}
+	for ri, name := range tab.Raters {
+		cl, m := agree.CrossTab(tab.Labels(ri), agree.SelectionClasses(sel), order)
+		normaliseRows(m)
+		h, err := heatMap(Matrix{Title: scan.CleanText(name) + " vs selection class", RowLabel: scan.CleanText(name) + "'s answer",
+			ColLabel: "selection's class", Rows: cleanAll(cl), Cols: cleanAll(cl), Cells: m, Percent: true, RowNormalisedMax: true})
+		if err != nil {
+			return err
+		}
+		svgs = append(svgs, h)
+	}
+	r.Figures = append(r.Figures, Figure{ID: "selection", Title: "The automated selection against the consensus", SVGs: svgs,
+		Definition: fmt.Sprintf("Signal: consensus class %s. Efficiency = selected signal events / all signal events; purity = selected signal events / all selected events, over the %d events with both a selection output and a consensus. The curves redefine the selection as score ≥ threshold; the dotted line marks the selection's own operating point. The heat maps show, for the selected events, the selection's class against the consensus and against each scanner, row by row as fractions.", joinShort(signal), v.Events),
 		Method:     fmt.Sprintf("Bands: %.0f%% Clopper–Pearson (1934) intervals, exact binomial, from Beta quantiles.", 100*in.CL),
 		Caution:    "The consensus is itself uncertain: scanner errors that the consensus does not remove bias both efficiency and purity."})
 	return nil
