@@ -49,8 +49,9 @@ func (t Tier) HasColor() bool { return t == TierTrueColor || t == Tier256 || t =
 // DetectTier works out a terminal's tier from its environment, as getenv
 // reports it (os.Getenv locally, the session's environment over SSH):
 // NO_COLOR set and non-empty (no-color.org) or TERM=dumb → mono;
-// COLORTERM=truecolor or 24bit → 24-bit; a TERM naming 256color → 256;
-// anything else → 16.
+// COLORTERM=truecolor or 24bit, or a TERM ending in -direct → 24-bit; a
+// TERM naming 256color → 256; anything else → 16. SSH does not pass
+// COLORTERM on by default, so remote sessions often need --color.
 func DetectTier(getenv func(string) string) Tier {
 	term := strings.ToLower(getenv("TERM"))
 	if getenv("NO_COLOR") != "" || term == "dumb" {
@@ -58,6 +59,9 @@ func DetectTier(getenv func(string) string) Tier {
 	}
 	switch strings.ToLower(getenv("COLORTERM")) {
 	case "truecolor", "24bit":
+		return TierTrueColor
+	}
+	if strings.HasSuffix(term, "-direct") { // terminfo's direct-colour entries
 		return TierTrueColor
 	}
 	if strings.Contains(term, "256color") {

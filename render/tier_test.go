@@ -8,7 +8,8 @@ import (
 // Conventions checked: NO_COLOR set to any non-empty value disables colour
 // (no-color.org); COLORTERM=truecolor or 24bit announces 24-bit colour and
 // a TERM ending in 256color the xterm 256 palette (common practice);
-// TERM=dumb supports no escape sequences (terminfo's "dumb" entry).
+// TERM=dumb supports no escape sequences (terminfo's "dumb" entry); a TERM
+// ending in -direct names ncurses' direct-colour entries (from memory).
 func TestDetectTier(t *testing.T) {
 	cases := []struct {
 		env  map[string]string
@@ -17,6 +18,7 @@ func TestDetectTier(t *testing.T) {
 		{map[string]string{"TERM": "xterm-256color", "COLORTERM": "truecolor"}, TierTrueColor},
 		{map[string]string{"TERM": "xterm-256color", "COLORTERM": "24bit"}, TierTrueColor},
 		{map[string]string{"TERM": "xterm-256color"}, Tier256},
+		{map[string]string{"TERM": "xterm-direct"}, TierTrueColor},
 		{map[string]string{"TERM": "screen-256color"}, Tier256},
 		{map[string]string{"TERM": "xterm"}, Tier16},
 		{map[string]string{"TERM": "linux"}, Tier16},
