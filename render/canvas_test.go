@@ -123,14 +123,15 @@ func checkCell(t *testing.T, tier Tier, want Cell, got rendertest.Cell, x, y int
 		return
 	}
 	fg, bg := termColor(want.FG, tier), termColor(want.BG, tier)
-	if want.Rune == upperHalf && want.Attr == 0 {
+	plain := want.Attr&(AttrReverse|AttrUnderline) == 0 // fg of a space unseen
+	if want.Rune == upperHalf && plain {
 		top, bot := shown(got)
 		if top != fg || bot != bg {
 			t.Fatalf("(%d,%d): halves %v/%v, want %v/%v", x, y, top, bot, fg, bg)
 		}
 		return
 	}
-	if got.Rune != want.Rune || got.BG != bg || (want.Rune != ' ' && got.FG != fg) {
+	if got.Rune != want.Rune || got.BG != bg || ((want.Rune != ' ' || !plain) && got.FG != fg) {
 		t.Fatalf("(%d,%d): %q %v/%v, want %q %v/%v", x, y, got.Rune, got.FG, got.BG, want.Rune, fg, bg)
 	}
 }
@@ -460,5 +461,41 @@ func TestZeroCellsShowBlank(t *testing.T) {
 	c.Text(0, 0, "事", nil, nil, 0)
 	if got := c.Lines(TierMono)[0]; got != "事  " {
 		t.Errorf("wide rune: %q, want its tail skipped", got)
+	}
+}
+
+// Random canvases (colours, attributes, half blocks, spaces, text) must
+// also show exactly as built: coalescing must never carry a colour or an
+// attribute into a cell that does not have it.
+func TestLinesRandomCanvases(t *testing.T) {
+	palette := []color.Color{nil, Scales()[0].Swatch(0), Scales()[0].Swatch(0.5), Scales()[1].Swatch(1),
+		color.RGBA{255, 0, 0, 255}, color.RGBA{0, 0, 0, 255}, NewSwatch(color.RGBA{30, 200, 90, 255})}
+	runes := []rune{upperHalf, upperHalf, upperHalf, ' ', 'a', '│', '⣿'}
+	attrs := []Attr{0, 0, 0, AttrBold, AttrReverse, AttrUnderline, AttrBold | AttrUnderline}
+	x := uint64(88172645463325252)
+	next := func(n int) int { // xorshift, deterministic
+		x ^= x << 13
+		x ^= x >> 7
+		x ^= x << 17
+		return int(x % uint64(n))
+	}
+	for _, tier := range allTiers {
+		for seed := range 5 {
+			c := NewCanvas(37, 9)
+			for i := range c.Cells {
+				c.Cells[i] = Cell{Rune: runes[next(len(runes))], FG: palette[next(len(palette))],
+					BG: palette[next(len(palette))], Attr: attrs[next(len(attrs))]}
+			}
+			scr, err := rendertest.Show(c.Lines(tier), c.W, c.H)
+			if err != nil {
+				t.Fatalf("%s seed %d: %v", tier, seed, err)
+			}
+			for y := range c.H {
+				for x := range c.W {
+					checkCell(t, tier, c.At(x, y), scr.At(x, y), x, y)
+				}
+			}
+			scr.Close()
+		}
 	}
 }
