@@ -242,3 +242,57 @@ func checkNPY(t *testing.T, path string, wires, ticks int) {
 }
 
 func near(a, b float64) bool { return math.Abs(a-b) < 1e-4 }
+
+func TestVerifyCampaignAndConsensusExport(t *testing.T) {
+	dir := t.TempDir()
+	db := filepath.Join(dir, "scan.db")
+	sel := filepath.Join(dir, "sel.csv")
+	body := "event,selected,class,score,box_plane,box_wire_lo,box_tick_lo,box_wire_hi,box_tick_hi\n" +
+		"e1,true,numu-cc,0.9,coll,2,10,8,30\ne2,false,,0.1,,,,,\ne3,false,,0.2,,,,,\n"
+	if err := os.WriteFile(sel, []byte(body), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out, err := runForTest(t, "campaign", "new", "--dataset", validDataset(), "--db", db, "--name", "v", "--mode", "verify",
+		"--selection", sel, "--include-unselected", "0.5", "--per-event", "1", "--seed", "4")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !strings.Contains(out, "2 events: 1 selected, 1 of 2 unselected") {
+		t.Errorf("summary: %s", out)
+	}
+	ctx := context.Background()
+	st, err := sqlite.Open(ctx, db)
+	if err != nil {
+		t.Fatal(err)
+	}
+	c, _ := st.CampaignByName(ctx, "v")
+	evs, _ := st.Events(ctx, c.ID)
+	if len(evs) != 2 || evs[0].EventID != "e1" || evs[0].Selection == nil || evs[0].Selection.Box == nil || evs[0].Selection.Box.Points[1].Tick != 30 {
+		t.Fatalf("verify events: %+v", evs)
+	}
+	p, err := st.NextPass(ctx, c.ID, "ana")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := st.SaveRevision(ctx, p.ID, "ana", scan.Revision{State: scan.PassSubmitted, Label: scan.Label{Verdict: "agree", Confidence: "3"}}); err != nil {
+		t.Fatal(err)
+	}
+	for _, m := range []string{"majority", "adjudication"} {
+		if err := st.SetConsensus(ctx, scan.Consensus{CampaignID: c.ID, EventID: "e1", Method: m, Label: scan.Label{Class: "numu-cc"}, Posterior: 0.5, By: "coord"}); err != nil {
+			t.Fatal(err)
+		}
+	}
+	st.Close()
+	out, err = runForTest(t, "export", "--db", db, "--format", "csv", "--consensus")
+	if err != nil {
+		t.Fatal(err)
+	}
+	rows, _ := csv.NewReader(strings.NewReader(out)).ReadAll()
+	if len(rows) != 2 || rows[1][4] != "e1" || rows[1][8] != "adjudication" || rows[1][9] != "0.5" || rows[1][10] != "numu-cc" {
+		t.Errorf("consensus CSV:\n%s", out)
+	}
+	out, err = runForTest(t, "export", "--db", db, "--format", "jsonl", "--consensus", "--method", "majority")
+	if err != nil || !strings.Contains(out, `"method":"majority"`) {
+		t.Errorf("majority export: %v\n%s", err, out)
+	}
+}
