@@ -304,8 +304,8 @@ func TestMIPWireCharge(t *testing.T) {
 	g := &generator{r: r, det: det, vol: vol, tr: newTransport(r, vol, det.DriftFieldKVcm), truth: &Truth{}}
 	g.tr.code = 1
 	var xs []float64
-	for k := range 10 {
-		x := 30 + 8*float64(k)
+	for k := range 40 {
+		x := 20 + 2*float64(k) // 25 ticks apart: pulses of σ ≈ 2.5 ticks do not overlap
 		xs = append(xs, x)
 		g.tr.heavy(spMuon, vec{x, 0, 100.2}, vec{0, 0, 1}, muonT(1000))
 	}
@@ -337,7 +337,8 @@ func TestMIPWireCharge(t *testing.T) {
 }
 
 // histMode returns the mode of the values in [lo, hi): the vertex of a
-// parabola through the highest bin of width bw and its neighbours.
+// parabola fitted to the seven bins of width bw around the highest one
+// (profilePeak).
 func histMode(v []float64, lo, hi, bw float64) float64 {
 	h := make([]float64, int((hi-lo)/bw))
 	for _, x := range v {
@@ -345,16 +346,37 @@ func histMode(v []float64, lo, hi, bw float64) float64 {
 			h[k]++
 		}
 	}
-	k := 1
-	for i := 1; i < len(h)-1; i++ {
-		if h[i] > h[k] {
-			k = i
+	return lo + profilePeak(h, bw)
+}
+
+// TestNoise checks the digitised noise of an empty plane: 400 e⁻ rms at
+// 200 e⁻ per count is 2 ADC, plus the rounding's 1/12 in quadrature,
+// within 3% (§7: cold-electronics ENC < 400 e⁻). Neighbouring ticks are
+// correlated as white noise smoothed by a Gaussian of σ = 1 tick:
+// ρ(1) = exp(−1/(4σ²)) = 0.779 before rounding, within 0.03.
+func TestNoise(t *testing.T) {
+	r := eventRand(22, 0)
+	img := testImage(window{wires: 300, ticks: 1200})
+	digitise(r, img, noiseTable(r, 1200))
+	var s2, s11 float64
+	for w := range img.Wires {
+		row := img.Row(w)
+		for k := range row {
+			v := float64(row[k])
+			s2 += v * v
+			if k > 0 {
+				s11 += v * float64(row[k-1])
+			}
 		}
 	}
-	a, b, c := h[k-1], h[k], h[k+1]
-	off := 0.0
-	if den := a - 2*b + c; den != 0 {
-		off = 0.5 * (a - c) / den
+	n := float64(len(img.Pix))
+	rms := math.Sqrt(s2 / n)
+	want := math.Sqrt(4 + 1.0/12)
+	if relErr(rms, want) > 0.03 {
+		t.Errorf("noise rms %.3f ADC, want %.3f", rms, want)
 	}
-	return lo + (float64(k)+0.5+off)*bw
+	rho := s11 / (n - float64(img.Wires)) / (s2 / n)
+	if math.Abs(rho-math.Exp(-0.25)*4/(4+1.0/12)) > 0.03 {
+		t.Errorf("lag-1 correlation %.3f, want %.3f", rho, math.Exp(-0.25))
+	}
 }

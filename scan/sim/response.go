@@ -17,8 +17,9 @@ import (
 //     of σ = √(σ_shaping² + σ_L²) normalised so that a point charge Q
 //     arriving at once peaks at Q: the convention in which an electronics
 //     noise of ENC electrons is an rms in the same units;
-//  4. noise (ENC e⁻ rms, white) is added and the sum is converted to ADC
-//     counts at electronsADC e⁻ per count and rounded.
+//  4. noise (ENC e⁻ rms, correlated over about a tick) is added and the
+//     sum is converted to ADC counts at electronsADC e⁻ per count and
+//     rounded.
 // Induction planes are drawn unipolar, like the collection plane, as if
 // their bipolar signals had already been deconvolved.
 
@@ -217,15 +218,41 @@ func addPulse(row, cur []float32, h hit) (lo, hi int) {
 	return lo, hi
 }
 
-// noiseTable returns standard normal deviates that digitise reads in
-// windows at random offsets, one window per wire: drawing a fresh normal
-// for each of the ~29 million samples of a full event would dominate its
-// cost. Wires share values at different lags, which nothing downstream can
-// see.
+// noiseCorrTicks is the Gaussian σ (ticks) of the time correlation of the
+// noise: shaped electronics noise is not white from sample to sample
+// (common practice: about half the pulse width).
+const noiseCorrTicks = 1.0
+
+// noiseTable returns unit-variance noise that digitise reads in windows at
+// random offsets, one window per wire: drawing a fresh normal for each of
+// the ~29 million samples of a full event would dominate its cost. Wires
+// share values at different lags, which nothing downstream can see. The
+// normals are smoothed by a Gaussian of noiseCorrTicks and rescaled to
+// unit variance, so neighbouring ticks are correlated as after shaping.
 func noiseTable(r *rand.Rand, ticks int) []float32 {
-	tab := make([]float32, max(1<<16, 4*ticks))
+	const half = 3
+	n := max(1<<16, 4*ticks)
+	raw := make([]float64, n+2*half)
+	for i := range raw {
+		raw[i] = r.NormFloat64()
+	}
+	var kern [2*half + 1]float64
+	var norm float64
+	for k := range kern {
+		d := float64(k - half)
+		kern[k] = math.Exp(-d * d / (2 * noiseCorrTicks * noiseCorrTicks))
+		norm += kern[k] * kern[k]
+	}
+	for k := range kern {
+		kern[k] /= math.Sqrt(norm)
+	}
+	tab := make([]float32, n)
 	for i := range tab {
-		tab[i] = float32(r.NormFloat64())
+		var v float64
+		for k, w := range kern {
+			v += w * raw[i+k]
+		}
+		tab[i] = float32(v)
 	}
 	return tab
 }
