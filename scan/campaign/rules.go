@@ -1,7 +1,9 @@
 // Package campaign holds the rules of a scanning campaign as pure
-// functions: which events go in, in what order each scanner sees them, and
-// when an event needs one more pass. Stores call these rules so every
-// backend assigns work the same way.
+// functions: which events go in (Build), in what order each scanner sees
+// them (Positions, StartOffset), and when an event needs one more pass
+// (NeedsExtraPass). Stores call these rules so every backend assigns work
+// the same way. It also summarises progress and exports labels: records
+// with marks in wire/tick and cm, and per-plane pixel masks.
 package campaign
 
 import (
