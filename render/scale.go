@@ -56,7 +56,9 @@ var scaleDesigns = []struct {
 }
 
 // builtinScales computes the scale tables once; they are immutable after.
-var builtinScales = sync.OnceValue(func() []Scale {
+var builtinScales = sync.OnceValue(buildScales)
+
+func buildScales() []Scale {
 	pal256, _ := palettes()
 	out := make([]Scale, len(scaleDesigns))
 	for i, d := range scaleDesigns {
@@ -69,7 +71,7 @@ var builtinScales = sync.OnceValue(func() []Scale {
 		out[i] = Scale{Name: d.name, tab: t}
 	}
 	return out
-})
+}
 
 // Scales returns the built-in colour scales, the default first.
 func Scales() []Scale { return append([]Scale(nil), builtinScales()...) }
@@ -222,19 +224,26 @@ func quantise(c color.RGBA, p256, p16 []tcell.Color) Swatch {
 // share the ramp in equal bands, the darkest kept for the low end alone so
 // that any charge above it shows.
 func quantiseRamp(out []Swatch, ramp []color.RGBA, p256, p16 []tcell.Color) {
-	floor := -1.0
-	allowed := make([]tcell.Color, 0, len(p256))
+	light := make(map[tcell.Color]float64, len(p256)+len(p16))
+	for _, p := range slices.Concat(p256, p16) {
+		light[p] = paletteLightness(p)
+	}
 	p16 = slices.Clone(p16)
-	slices.SortStableFunc(p16, func(a, b tcell.Color) int { return cmp.Compare(paletteLightness(a), paletteLightness(b)) })
+	slices.SortStableFunc(p16, func(a, b tcell.Color) int { return cmp.Compare(light[a], light[b]) })
+	floor := math.Inf(-1)
+	var allowed []tcell.Color
 	for i, c := range ramp {
-		allowed = allowed[:0]
-		for _, p := range p256 {
-			if paletteLightness(p) >= floor {
-				allowed = append(allowed, p)
+		if allowed == nil { // the floor moved: palette entries at least as light
+			for _, p := range p256 {
+				if light[p] >= floor {
+					allowed = append(allowed, p)
+				}
 			}
 		}
 		best := tcell.FindColor(tcell.NewRGBColor(int32(c.R), int32(c.G), int32(c.B)), allowed)
-		floor = paletteLightness(best)
+		if light[best] != floor {
+			floor, allowed = light[best], nil
+		}
 		band := 0
 		if i > 0 && len(p16) > 1 {
 			band = 1 + (i-1)*(len(p16)-1)/(len(ramp)-1)
