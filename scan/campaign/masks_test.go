@@ -77,3 +77,13 @@ func TestSafeName(t *testing.T) {
 		}
 	}
 }
+
+func TestSample(t *testing.T) {
+	x := []float32{0, 1, 2, 3, 4, 5, 6, 7, 8, 9}
+	if got := sample(x, 3); len(got) != 3 || got[1] != 4 || got[2] != 8 {
+		t.Errorf("sample(0..9, 3) = %v, want [0 4 8]", got)
+	}
+	if got := sample(x, 20); len(got) != 10 || &got[0] == &x[0] {
+		t.Errorf("short input must be copied whole, got %v", got)
+	}
+}
