@@ -172,6 +172,11 @@ func (s *Store) migrate(ctx context.Context) error {
 		}
 		return nil
 	})
+	if pgCode(err) == codeNoPrivilege {
+		return fmt.Errorf("the database's tpcscan tables are missing or older than this tpcscan (schema version %d), "+
+			"and this role may not create or change tables: open it once with the owner role "+
+			"(see the README's PostgreSQL section): %w", len(ms), err)
+	}
 	if err != nil {
 		return fmt.Errorf("migrate postgres schema: %w", err)
 	}
@@ -258,4 +263,6 @@ func pgCode(err error) string {
 const (
 	codeUnique     = "23505"
 	codeForeignKey = "23503"
+	// codeNoPrivilege is insufficient_privilege.
+	codeNoPrivilege = "42501"
 )
