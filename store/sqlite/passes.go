@@ -144,6 +144,19 @@ func getPass(ctx context.Context, tx *sql.Tx, id int64) (scan.Pass, error) {
 	return p, err
 }
 
+// passHead reads what SaveRevision needs of a pass, without its label.
+func passHead(ctx context.Context, tx *sql.Tx, id int64) (scan.Pass, error) {
+	p := scan.Pass{ID: id}
+	var state string
+	err := tx.QueryRowContext(ctx, `SELECT campaign_id, event_id, scanner, round, state, revisions FROM passes WHERE id = ?`, id).
+		Scan(&p.CampaignID, &p.EventID, &p.Scanner, &p.Round, &state, &p.Revisions)
+	if errors.Is(err, sql.ErrNoRows) {
+		return p, fmt.Errorf("pass %d: %w", id, store.ErrNotFound)
+	}
+	p.State = scan.PassState(state)
+	return p, err
+}
+
 // Pass returns one pass with its latest label.
 func (s *Store) Pass(ctx context.Context, passID int64) (scan.Pass, error) {
 	var p scan.Pass
@@ -219,7 +232,7 @@ func (s *Store) SaveRevision(ctx context.Context, passID int64, scanner string, 
 		return rev, fmt.Errorf("save pass %d: %w", passID, err)
 	}
 	err = s.tx(ctx, func(tx *sql.Tx) error {
-		p, err := getPass(ctx, tx, passID)
+		p, err := passHead(ctx, tx, passID)
 		if err != nil {
 			return err
 		}
