@@ -499,3 +499,16 @@ func TestLinesRandomCanvases(t *testing.T) {
 		}
 	}
 }
+
+func TestLegendLogTicks(t *testing.T) {
+	got := legendTicks(Range{Lo: 15, Hi: 600, Log: true}, 60)
+	want := []float64{15, 20, 50, 100, 200, 500}
+	if !slices.Equal(got, want) {
+		t.Errorf("log ticks %v, want %v", got, want)
+	}
+	c := NewCanvas(60, 2)
+	Legend(c, 0, 0, 60, Scale{}, Range{Lo: 15, Hi: 600, Log: true}, Tier256, 0)
+	if f := strings.Fields(rowText(c, 1)); !slices.Contains(f, "100") || !slices.Contains(f, "ADC") {
+		t.Errorf("log legend labels %q", f)
+	}
+}

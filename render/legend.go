@@ -53,11 +53,11 @@ func legendTicks(r Range, w int) []float64 {
 	}
 	n := max(1, w/8) // a label needs about 8 cells
 	if r.Log {
-		// 1-2-5 offsets above Lo, which fall evenly on a log axis.
+		// Round 1-2-5 values, which fall about evenly on a log axis.
 		ticks := []float64{r.Lo}
-		for d := 1.0; d <= r.Hi-r.Lo; d *= 10 {
+		for d := 1.0; d <= r.Hi; d *= 10 {
 			for _, m := range []float64{1, 2, 5} {
-				if v := r.Lo + m*d; v <= r.Hi {
+				if v := m * d; v > r.Lo && v <= r.Hi {
 					ticks = append(ticks, v)
 				}
 			}
