@@ -34,12 +34,12 @@ func runDemo(ctx context.Context, env *environ, args []string) error {
 		"muons overlaid on every window. Each event gets its three planes, a truth.json (class,",
 		"vertex, particles) and per-pixel truth. The output is the same for the same seed.",
 	}, "\n"))
-	events := fs.Int("events", 200, "number of events")
-	seed := fs.Int64("seed", 1, "random seed")
-	out := fs.String("out", "tarn-demo", "dataset folder to create")
-	mix := fs.String("mix", demoDefaultMix, "class weights, class=weight,…")
-	size := fs.String("size", sim.SizeDemo, "demo (a 400-wire × 1200-tick crop around the interaction) or full (the whole readout, ~29 M samples and ~230 MB per event)")
-	pngDir := fs.String("png", "", "also write a PNG of every plane of every event into this folder")
+	events := fs.Int("events", 200, "number of events `N`")
+	seed := fs.Int64("seed", 1, "random seed `S`: the same seed gives the same dataset")
+	out := fs.String("out", "tarn-demo", "dataset folder `DIR` to create")
+	mix := fs.String("mix", demoDefaultMix, "class weights `LIST`: class=weight,… (classes: numu-cc, nue-cc, nc-pi0, nc-other, cosmic)")
+	size := fs.String("size", sim.SizeDemo, "`SIZE`: demo (a 400-wire × 1200-tick crop around the interaction) or full (the whole readout, ~29 M samples and ~230 MB per event)")
+	pngDir := fs.String("png", "", "also write a PNG of every plane of every event into folder `DIR`")
 	if err := fs.Parse(args); err != nil {
 		return err
 	}
