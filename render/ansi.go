@@ -81,8 +81,8 @@ func (c *Canvas) Lines(t Tier) []string {
 	return out
 }
 
-// String joins Lines with newlines.
-func (c *Canvas) String(t Tier) string { return strings.Join(c.Lines(t), "\n") }
+// Frame joins Lines with newlines: the whole canvas as one string.
+func (c *Canvas) Frame(t Tier) string { return strings.Join(c.Lines(t), "\n") }
 
 // simplify picks the cheapest equivalent of a cell given the pen: a space
 // does not care about its foreground, and a half block can be flipped.

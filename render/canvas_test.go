@@ -52,7 +52,7 @@ func TestLinesGolden(t *testing.T) {
 				name = fmt.Sprintf("%s-%dx%d", tier, size[0], size[1])
 			}
 			t.Run(name, func(t *testing.T) {
-				golden.RequireEqual(t, smallScene(tier, size[0], size[1]).String(tier)+"\n")
+				golden.RequireEqual(t, smallScene(tier, size[0], size[1]).Frame(tier)+"\n")
 			})
 		}
 	}
