@@ -87,7 +87,8 @@ func groupRevisions(passes []scan.Pass, revs []scan.Revision) []store.PassDump {
 }
 
 // Load imports a whole campaign in one transaction under new row IDs,
-// keeping every revision, counter and time stamp.
+// keeping every revision, counter and time stamp. Rows go in with the COPY
+// protocol, so a campaign of millions of passes loads in one pass.
 func (s *Store) Load(ctx context.Context, d store.CampaignDump) (int64, error) {
 	c := d.Campaign
 	var id int64
@@ -101,36 +102,23 @@ func (s *Store) Load(ctx context.Context, d store.CampaignDump) (int64, error) {
 		if err := insertEvents(ctx, tx, id, c.Seed, d.Events); err != nil {
 			return err
 		}
-		for _, pd := range d.Passes {
-			if err := loadPass(ctx, tx, id, pd); err != nil {
-				return err
-			}
+		if err := loadPasses(ctx, tx, id, d.Passes); err != nil {
+			return err
 		}
-		_, err = tx.Exec(ctx, `UPDATE events e SET taken = n.count FROM
-			(SELECT event_id, count(*) FROM passes WHERE campaign_id = $1 GROUP BY event_id) n
-			WHERE e.campaign_id = $1 AND e.event_id = n.event_id`, id)
-		if err != nil {
-			return fmt.Errorf("count taken passes: %w", err)
+		if err := loadConsensus(ctx, tx, id, d.Consensus); err != nil {
+			return err
 		}
-		b := &pgx.Batch{}
-		for _, x := range d.Consensus {
-			label, err := json.Marshal(x.Label)
-			if err != nil {
-				return fmt.Errorf("consensus of %s: encode label: %w", x.EventID, err)
-			}
-			b.Queue(`INSERT INTO consensus (campaign_id, event_id, method, label, posterior, decided_by, at)
-				VALUES ($1, $2, $3, $4, $5, $6, $7)`, id, x.EventID, x.Method, label, x.Posterior, x.By, x.At)
-		}
-		for _, r := range d.Resume {
+		rows := make([][]any, len(d.Resume))
+		for i, r := range d.Resume {
 			state := r.State
 			if state == nil {
 				state = []byte{}
 			}
-			b.Queue(`INSERT INTO resume (campaign_id, scanner, state, updated) VALUES ($1, $2, $3, $4)`,
-				id, r.Scanner, state, r.Updated)
+			rows[i] = []any{id, r.Scanner, state, r.Updated}
 		}
-		if err := tx.SendBatch(ctx, b).Close(); err != nil {
-			return fmt.Errorf("consensus and resume states: %w", err)
+		_, err = tx.CopyFrom(ctx, pgx.Identifier{"resume"}, []string{"campaign_id", "scanner", "state", "updated"}, pgx.CopyFromRows(rows))
+		if err != nil {
+			return fmt.Errorf("resume states: %w", err)
 		}
 		return nil
 	})
@@ -140,36 +128,89 @@ func (s *Store) Load(ctx context.Context, d store.CampaignDump) (int64, error) {
 	return id, nil
 }
 
-// loadPass inserts one pass and its revisions and points the pass at its
-// latest revision.
-func loadPass(ctx context.Context, tx pgx.Tx, campaignID int64, pd store.PassDump) error {
-	p := pd.Pass
-	var id int64
-	err := tx.QueryRow(ctx, `INSERT INTO passes (campaign_id, event_id, scanner, round, state, assigned, updated, seconds, revisions)
-		VALUES ($1, $2, $3, $4, $5, $6, $7, $8, $9) RETURNING id`,
-		campaignID, p.EventID, p.Scanner, p.Round, string(p.State), p.Assigned, p.Updated, p.Seconds, p.Revisions).Scan(&id)
+// loadPasses copies passes and revisions in under IDs drawn from their
+// identity sequences, then points each pass at its latest revision and
+// counts each event's passes as taken.
+func loadPasses(ctx context.Context, tx pgx.Tx, campaignID int64, passes []store.PassDump) error {
+	nRevs := 0
+	for _, pd := range passes {
+		nRevs += len(pd.Revisions)
+	}
+	passIDs, err := nextIDs(ctx, tx, "passes", len(passes))
+	if err != nil {
+		return err
+	}
+	revIDs, err := nextIDs(ctx, tx, "revisions", nRevs)
+	if err != nil {
+		return err
+	}
+	passRows := make([][]any, len(passes))
+	revRows := make([][]any, 0, nRevs)
+	for i, pd := range passes {
+		p := pd.Pass
+		passRows[i] = []any{passIDs[i], campaignID, p.EventID, p.Scanner, p.Round, string(p.State), p.Assigned, p.Updated, p.Seconds, p.Revisions}
+		for _, r := range pd.Revisions {
+			label, err := json.Marshal(r.Label)
+			if err != nil {
+				return fmt.Errorf("revision %d of pass %d: encode label: %w", r.Seq, p.ID, err)
+			}
+			revRows = append(revRows, []any{revIDs[len(revRows)], passIDs[i], r.Seq, string(r.State), label, r.Seconds, r.At, r.Schema})
+		}
+	}
+	_, err = tx.CopyFrom(ctx, pgx.Identifier{"passes"},
+		[]string{"id", "campaign_id", "event_id", "scanner", "round", "state", "assigned", "updated", "seconds", "revisions"},
+		pgx.CopyFromRows(passRows))
 	if pgCode(err) == codeForeignKey {
-		return fmt.Errorf("pass %d names event %s, which the campaign lacks: %w", p.ID, p.EventID, store.ErrConflict)
+		return fmt.Errorf("a pass names an event the campaign lacks: %w", store.ErrConflict)
 	}
 	if err != nil {
-		return fmt.Errorf("pass of %s by %q: %w", p.EventID, p.Scanner, err)
+		return fmt.Errorf("passes: %w", err)
 	}
-	if len(pd.Revisions) == 0 {
-		return nil
+	_, err = tx.CopyFrom(ctx, pgx.Identifier{"revisions"},
+		[]string{"id", "pass_id", "seq", "state", "label", "seconds", "at", "schema_version"}, pgx.CopyFromRows(revRows))
+	if err != nil {
+		return fmt.Errorf("revisions: %w", err)
 	}
-	b := &pgx.Batch{}
-	for _, r := range pd.Revisions {
-		label, err := json.Marshal(r.Label)
-		if err != nil {
-			return fmt.Errorf("revision %d of pass %d: encode label: %w", r.Seq, p.ID, err)
-		}
-		b.Queue(`INSERT INTO revisions (pass_id, seq, state, label, seconds, at, schema_version)
-			VALUES ($1, $2, $3, $4, $5, $6, $7)`, id, r.Seq, string(r.State), label, r.Seconds, r.At, r.Schema)
+	_, err = tx.Exec(ctx, `UPDATE passes p SET latest_revision =
+		(SELECT r.id FROM revisions r WHERE r.pass_id = p.id ORDER BY r.seq DESC LIMIT 1)
+		WHERE p.campaign_id = $1 AND p.revisions > 0`, campaignID)
+	if err != nil {
+		return fmt.Errorf("latest revisions: %w", err)
 	}
-	b.Queue(`UPDATE passes SET latest_revision = (SELECT id FROM revisions WHERE pass_id = $1 ORDER BY seq DESC LIMIT 1)
-		WHERE id = $1`, id)
-	if err := tx.SendBatch(ctx, b).Close(); err != nil {
-		return fmt.Errorf("revisions of pass %d: %w", p.ID, err)
+	_, err = tx.Exec(ctx, `UPDATE events e SET taken = n.count FROM
+		(SELECT event_id, count(*) FROM passes WHERE campaign_id = $1 GROUP BY event_id) n
+		WHERE e.campaign_id = $1 AND e.event_id = n.event_id`, campaignID)
+	if err != nil {
+		return fmt.Errorf("count taken passes: %w", err)
 	}
 	return nil
+}
+
+func loadConsensus(ctx context.Context, tx pgx.Tx, campaignID int64, cs []scan.Consensus) error {
+	rows := make([][]any, len(cs))
+	for i, x := range cs {
+		label, err := json.Marshal(x.Label)
+		if err != nil {
+			return fmt.Errorf("consensus of %s: encode label: %w", x.EventID, err)
+		}
+		rows[i] = []any{campaignID, x.EventID, x.Method, label, x.Posterior, x.By, x.At}
+	}
+	_, err := tx.CopyFrom(ctx, pgx.Identifier{"consensus"},
+		[]string{"campaign_id", "event_id", "method", "label", "posterior", "decided_by", "at"}, pgx.CopyFromRows(rows))
+	if pgCode(err) == codeForeignKey {
+		return fmt.Errorf("a consensus label names an event the campaign lacks: %w", store.ErrConflict)
+	}
+	if err != nil {
+		return fmt.Errorf("consensus: %w", err)
+	}
+	return nil
+}
+
+// nextIDs draws n values from a table's identity sequence, in order.
+func nextIDs(ctx context.Context, tx pgx.Tx, table string, n int) ([]int64, error) {
+	rows, err := tx.Query(ctx, `SELECT nextval(pg_get_serial_sequence($1, 'id')) FROM generate_series(1, $2) ORDER BY 1`, table, n)
+	if err != nil {
+		return nil, fmt.Errorf("allocate %s IDs: %w", table, err)
+	}
+	return pgx.CollectRows(rows, pgx.RowTo[int64])
 }
