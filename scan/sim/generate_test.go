@@ -5,6 +5,7 @@ import (
 	"encoding/json"
 	"errors"
 	"math"
+	"os"
 	"path/filepath"
 	"slices"
 	"strings"
@@ -274,6 +275,21 @@ func TestWriteDataset(t *testing.T) {
 	}
 	if err := WriteDataset(context.Background(), dir, Options{Events: 1}, nil); err == nil {
 		t.Error("writing over an existing dataset succeeded")
+	}
+	// A file where event 2's folder should go makes its Add fail: the
+	// error must come back (not a hang) and no manifest be written.
+	dir3 := filepath.Join(t.TempDir(), "blocked")
+	if err := os.MkdirAll(dir3, 0o755); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.WriteFile(filepath.Join(dir3, EventID(2)), nil, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if err := WriteDataset(context.Background(), dir3, Options{Events: 12}, nil); err == nil || !strings.Contains(err.Error(), EventID(2)) {
+		t.Errorf("write over a blocked event folder returned %v", err)
+	}
+	if _, err := dataset.Open(dir3); err == nil {
+		t.Error("a failed write left a dataset that opens")
 	}
 	ctx, cancel := context.WithCancel(context.Background())
 	cancel()

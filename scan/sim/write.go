@@ -32,7 +32,11 @@ func WriteDataset(ctx context.Context, dir string, opt Options, progress func(do
 		return err
 	}
 	ctx, cancel := context.WithCancel(ctx)
-	defer cancel()
+	var wg sync.WaitGroup
+	defer func() { // stop the feeder and the workers, then wait for them
+		cancel()
+		wg.Wait()
+	}()
 
 	n := opt.Events
 	workers := max(1, min(runtime.NumCPU(), n))
@@ -51,8 +55,9 @@ func WriteDataset(ctx context.Context, dir string, opt Options, progress func(do
 	}
 	slots := make(chan struct{}, inflight) // events generated but not yet written
 	next := make(chan int)
-	var wg sync.WaitGroup
+	wg.Add(1)
 	go func() { // hand out indices in order, at most inflight ahead of the writer
+		defer wg.Done()
 		defer close(next)
 		for i := range n {
 			select {
@@ -78,7 +83,6 @@ func WriteDataset(ctx context.Context, dir string, opt Options, progress func(do
 			}
 		}()
 	}
-	defer wg.Wait()
 	for i := range n {
 		var res result
 		select {
