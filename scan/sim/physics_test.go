@@ -12,6 +12,10 @@ import (
 // Section numbers (§) refer to the project's physics reference, which
 // lists each value with its published source.
 
+// unbounded returns a box large enough to contain any shower: the medium
+// of the physics tests.
+func unbounded() box { return box{lo: vec{-1e9, -1e9, -1e9}, hi: vec{1e9, 1e9, 1e9}} }
+
 func relErr(got, want float64) float64 { return math.Abs(got-want) / math.Abs(want) }
 
 func muonT(p float64) float64 { return math.Sqrt(p*p+massMu*massMu) - massMu }

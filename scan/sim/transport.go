@@ -91,7 +91,7 @@ func (tr *transport) scatter(pos, dir vec, ds, theta0 float64) (vec, vec) {
 // eq. 34.16 at one X0 ([PDG34] warns that per-step Highland in quadrature
 // comes out too small).
 func stepTheta0(p, beta, ds float64) float64 {
-	return 13.6 / (beta * p) * math.Sqrt(ds/larX0) * (1 + 0.038*math.Log(mcsRefLenCm/(larX0*beta*beta)))
+	return highlandTheta0(p, beta, mcsRefLenCm) * math.Sqrt(ds/mcsRefLenCm)
 }
 
 // trackEnd is how a stepped track ended.

@@ -61,10 +61,6 @@ func (b box) contains(p vec) bool {
 	return p[0] >= b.lo[0] && p[0] <= b.hi[0] && p[1] >= b.lo[1] && p[1] <= b.hi[1] && p[2] >= b.lo[2] && p[2] <= b.hi[2]
 }
 
-// unbounded returns a box large enough to contain any shower: the medium
-// of the physics tests.
-func unbounded() box { return box{lo: vec{-1e9, -1e9, -1e9}, hi: vec{1e9, 1e9, 1e9}} }
-
 // clip returns the parameters at which the line p + s·d enters and leaves
 // the box, and whether it meets the box at all.
 func (b box) clip(p, d vec) (sIn, sOut float64, ok bool) {
