@@ -13,11 +13,9 @@ import (
 )
 
 // Dump exports a whole campaign from one consistent snapshot, while
-// scanners go on saving.
+// scanners go on saving. Like Load, it has no deadline but the caller's.
 func (s *Store) Dump(ctx context.Context, campaignID int64) (store.CampaignDump, error) {
 	var d store.CampaignDump
-	ctx, cancel := context.WithTimeout(ctx, 10*opTimeout)
-	defer cancel()
 	opts := pgx.TxOptions{IsoLevel: pgx.RepeatableRead, AccessMode: pgx.ReadOnly}
 	err := pgx.BeginTxFunc(ctx, s.pool, opts, func(tx pgx.Tx) error {
 		var err error
@@ -92,9 +90,9 @@ func groupRevisions(passes []scan.Pass, revs []scan.Revision) []store.PassDump {
 func (s *Store) Load(ctx context.Context, d store.CampaignDump) (int64, error) {
 	c := d.Campaign
 	var id int64
-	ctx, cancel := context.WithTimeout(ctx, 10*opTimeout)
-	defer cancel()
-	err := s.tx(ctx, func(tx pgx.Tx) error {
+	// No deadline of ours: a campaign of millions of passes takes a while,
+	// and the caller (tpcscan migrate) stops on Ctrl-C.
+	err := s.retry(ctx, func(tx pgx.Tx) error {
 		var err error
 		if id, err = insertCampaign(ctx, tx, c, len(d.Events)); err != nil {
 			return err

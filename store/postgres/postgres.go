@@ -193,6 +193,11 @@ func (s *Store) migrate(ctx context.Context) error {
 func (s *Store) tx(ctx context.Context, fn func(pgx.Tx) error) error {
 	ctx, cancel := context.WithTimeout(ctx, opTimeout)
 	defer cancel()
+	return s.retry(ctx, fn)
+}
+
+// retry is tx without its deadline, for bulk work bounded by the caller.
+func (s *Store) retry(ctx context.Context, fn func(pgx.Tx) error) error {
 	for attempt := 1; ; attempt++ {
 		err, again := s.try(ctx, fn)
 		if err == nil || !again || attempt == maxAttempts {
