@@ -42,6 +42,7 @@ func addLabelFlags(fs *flag.FlagSet) *labelFlags {
 type labelSet struct {
 	ratings  []agree.Rating
 	seconds  map[string][]float64 // rater → seconds per rated item, where known
+	order    []string             // display order of the classes (the schema's, for a campaign)
 	st       store.Store          // nil for a CSV
 	campaign scan.Campaign
 	passes   []scan.Pass
@@ -70,6 +71,7 @@ func (f *labelFlags) load(ctx context.Context) (*labelSet, error) {
 		return nil, err
 	}
 	ls := &labelSet{st: st, campaign: c, passes: passes, ratings: agree.PassRatings(passes), seconds: map[string][]float64{}}
+	ls.order = agree.ClassOrder(c.Schema, ls.ratings)
 	for _, p := range passes {
 		if p.State == scan.PassSubmitted {
 			ls.seconds[p.Scanner] = append(ls.seconds[p.Scanner], p.Seconds)
@@ -325,7 +327,11 @@ type agreeArgs struct {
 }
 
 func runAgree(ctx context.Context, env *environ, ls *labelSet, asJSON bool, a agreeArgs) error {
-	tab, err := agree.NewTable(ls.ratings, a.order)
+	order := a.order
+	if len(order) == 0 {
+		order = ls.order // a campaign's schema order: for display only
+	}
+	tab, err := agree.NewTable(ls.ratings, order)
 	if err != nil {
 		return err
 	}
@@ -561,7 +567,7 @@ func efficiencyCommand() command {
 				return err
 			}
 			defer ls.Close()
-			tab, err := agree.NewTable(ls.ratings, nil)
+			tab, err := agree.NewTable(ls.ratings, ls.order)
 			if err != nil {
 				return err
 			}
@@ -659,7 +665,7 @@ func consensusCommand() command {
 				return err
 			}
 			defer ls.Close()
-			res, err := computeConsensus(ls.ratings, *method)
+			res, err := computeConsensus(ls.ratings, ls.order, *method)
 			if err != nil {
 				return err
 			}
@@ -678,8 +684,8 @@ func consensusCommand() command {
 	}
 }
 
-func computeConsensus(rs []agree.Rating, method string) (agree.ConsensusResult, error) {
-	tab, err := agree.NewTable(rs, nil)
+func computeConsensus(rs []agree.Rating, order []string, method string) (agree.ConsensusResult, error) {
+	tab, err := agree.NewTable(rs, order)
 	if err != nil {
 		return agree.ConsensusResult{}, err
 	}
@@ -794,7 +800,6 @@ func printConsensus(w io.Writer, res agree.ConsensusResult, all bool, stored int
 	fmt.Fprintln(tw, "event\tlabel\tposterior")
 	for i, it := range res.Items {
 		if !all && i == 20 {
-			fmt.Fprintf(tw, "…\t(%d more; --all lists them, --json for scripts)\t\n", len(res.Items)-20)
 			break
 		}
 		lab := "(tied)"
@@ -804,6 +809,9 @@ func printConsensus(w io.Writer, res agree.ConsensusResult, all bool, stored int
 		fmt.Fprintf(tw, "%s\t%s\t%s\n", scan.CleanText(it.Item), scan.CleanText(lab), f3(it.Posterior))
 	}
 	tw.Flush()
+	if !all && len(res.Items) > 20 {
+		fmt.Fprintf(w, "… %d more events (--all lists them, --json for scripts)\n", len(res.Items)-20)
+	}
 	if len(res.Adjudicate) > 0 {
 		fmt.Fprintf(w, "\nto adjudicate (most contested first): %s\n", scan.CleanText(strings.Join(firstN(res.Adjudicate, 30), ", ")))
 	}
@@ -928,7 +936,7 @@ func validationConsensus(ctx context.Context, ls *labelSet) (map[string]string, 
 			return out, "stored " + strings.Join(names, "+"), nil
 		}
 	}
-	res, err := computeConsensus(ls.ratings, agree.Majority)
+	res, err := computeConsensus(ls.ratings, ls.order, agree.Majority)
 	if err != nil {
 		return nil, "", err
 	}

@@ -212,13 +212,22 @@ func CrossTab(a, b map[string]string, order []string) ([]string, [][]float64) {
 	return cats, m
 }
 
-// SelectionClasses returns the selection's class per event (selected events
-// only: an unselected event has no class call).
-func SelectionClasses(sel []scan.Selection) map[string]string {
+// NotSelected is the selection's "class" of an event it rejected, in
+// SelectionCalls.
+const NotSelected = "(not selected)"
+
+// SelectionCalls returns the selection's call per event: its class for a
+// selected event (or "selected" when it names none), NotSelected otherwise.
+func SelectionCalls(sel []scan.Selection) map[string]string {
 	out := make(map[string]string, len(sel))
 	for _, s := range sel {
-		if s.Selected && s.Class != "" {
+		switch {
+		case !s.Selected:
+			out[s.EventID] = NotSelected
+		case s.Class != "":
 			out[s.EventID] = s.Class
+		default:
+			out[s.EventID] = "selected"
 		}
 	}
 	return out

@@ -81,3 +81,28 @@ func Summarize(t *Table, absent []string) Summary {
 	s.Contested = len(MajorityVote(t).Adjudicate)
 	return s
 }
+
+// ClassOrder is the schema's class order restricted to the classes the
+// ratings use, then any other labels alphabetically: the order tables and
+// plots show a campaign's classes in.
+func ClassOrder(s scan.Schema, rs []Rating) []string {
+	used := map[string]bool{}
+	for _, r := range rs {
+		if r.Label != "" {
+			used[r.Label] = true
+		}
+	}
+	var out []string
+	for _, c := range s.Classes {
+		if used[c.Key] {
+			out = append(out, c.Key)
+			delete(used, c.Key)
+		}
+	}
+	rest := make([]string, 0, len(used))
+	for c := range used {
+		rest = append(rest, c)
+	}
+	slices.Sort(rest)
+	return append(out, rest...)
+}

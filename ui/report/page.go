@@ -21,6 +21,10 @@ h2 { font-size: 20px; margin: 40px 0 8px; border-bottom: 2px solid #1f3b73; padd
 table.kv { border-collapse: collapse; margin: 12px 0; }
 table.kv td { padding: 4px 16px 4px 0; border-bottom: 1px solid #e2e0d8; vertical-align: top; }
 table.kv td:first-child { color: #555f52; }
+table.num { border-collapse: collapse; margin: 12px 0; font-size: 14px; }
+table.num th, table.num td { padding: 3px 10px; border-bottom: 1px solid #e2e0d8; text-align: right; white-space: nowrap; }
+table.num th { border-bottom: 2px solid #1f3b73; }
+table.num td:first-child, table.num th:first-child { text-align: left; }
 .figs { display: flex; flex-wrap: wrap; gap: 12px; align-items: flex-start; }
 .figs svg { background: #fff; border: 1px solid #e2e0d8; max-width: 100%; height: auto; }
 dl { margin: 10px 0; }
@@ -44,6 +48,8 @@ footer { margin-top: 48px; color: #555f52; font-size: 13px; }
 <section id="{{.ID}}">
 <h2>{{.Title}}</h2>
 <div class="figs">{{range .SVGs}}{{.}}{{end}}</div>
+{{if .Table}}<table class="num">{{range $i, $row := .Table}}<tr>{{range $row}}{{if eq $i 0}}<th>{{.}}</th>{{else}}<td>{{.}}</td>{{end}}{{end}}</tr>
+{{end}}</table>{{end}}
 <dl>
 <dt>Definition</dt><dd>{{.Definition}}</dd>
 <dt>Method</dt><dd>{{.Method}}</dd>

@@ -147,8 +147,9 @@ func heatMap(m Matrix) (template.HTML, error) {
 	p.NominalY(rev...)
 	p.X.Tick.Label.Rotation = math.Pi / 6
 	p.X.Tick.Label.XAlign, p.X.Tick.Label.YAlign = draw.XRight, draw.YCenter
-	size := vg.Length(90 + 52*max(len(m.Cols), len(m.Rows)))
-	return svg(p, size+40, size)
+	w := vg.Length(170 + 58*len(m.Cols))
+	h := vg.Length(120 + 46*len(m.Rows))
+	return svg(p, max(w, 300), h)
 }
 
 func cellText(v float64, percent bool) string {
@@ -268,7 +269,10 @@ func curvePlot(title string, pts []CurvePoint, cut *float64) (template.HTML, err
 	p.Title.Text = title
 	p.X.Label.Text = "score threshold (selected: score ≥ threshold)"
 	p.Y.Label.Text = "fraction"
-	p.Y.Min, p.Y.Max = 0, 1.02
+	// Headroom above 1 keeps the legend clear of the curves.
+	p.Y.Min, p.Y.Max = 0, 1.24
+	p.Y.Tick.Marker = plot.ConstantTicks{{Value: 0, Label: "0"}, {Value: 0.2, Label: "0.2"}, {Value: 0.4, Label: "0.4"},
+		{Value: 0.6, Label: "0.6"}, {Value: 0.8, Label: "0.8"}, {Value: 1, Label: "1"}}
 	p.Add(plotter.NewGrid())
 	series := []struct {
 		name  string
@@ -314,7 +318,7 @@ func curvePlot(title string, pts []CurvePoint, cut *float64) (template.HTML, err
 		p.Legend.Add(s.name, l, sc)
 	}
 	if cut != nil {
-		v, _ := plotter.NewLine(plotter.XYs{{X: *cut, Y: 0}, {X: *cut, Y: 1.02}})
+		v, _ := plotter.NewLine(plotter.XYs{{X: *cut, Y: 0}, {X: *cut, Y: 1}})
 		v.LineStyle.Color = mossGrey
 		v.LineStyle.Dashes = []vg.Length{vg.Points(2), vg.Points(3)}
 		p.Add(v)

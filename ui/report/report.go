@@ -51,6 +51,7 @@ type Figure struct {
 	Definition string
 	Method     string
 	Caution    string
+	Table      [][]string // optional numbers behind the plot; first row is the header
 }
 
 // Build computes the report. It fails only on inconsistent input; a
@@ -68,7 +69,7 @@ func Build(ctx context.Context, in Input) (*Report, error) {
 		r.Notes = append(r.Notes, "No submitted labels yet: nothing to measure.")
 		return r, nil
 	}
-	tab, err := agree.NewTable(ratings, classOrder(in.Campaign.Schema, ratings))
+	tab, err := agree.NewTable(ratings, agree.ClassOrder(in.Campaign.Schema, ratings))
 	if err != nil {
 		return nil, fmt.Errorf("report: %w", err)
 	}
@@ -91,27 +92,6 @@ func Build(ctx context.Context, in Input) (*Report, error) {
 		return nil, err
 	}
 	return r, nil
-}
-
-// classOrder is the schema's class order restricted to the classes used,
-// then any others.
-func classOrder(s scan.Schema, rs []agree.Rating) []string {
-	used := map[string]bool{}
-	for _, r := range rs {
-		used[r.Label] = true
-	}
-	var out []string
-	for _, c := range s.Classes {
-		if used[c.Key] {
-			out = append(out, c.Key)
-			delete(used, c.Key)
-		}
-	}
-	for c := range used {
-		out = append(out, c)
-	}
-	slices.Sort(out[len(out)-len(used):])
-	return out
 }
 
 // consensusLabels uses the stored consensus when there is one, else the
@@ -258,13 +238,16 @@ func (r *Report) efficiency(tab *agree.Table, in Input) error {
 	if err != nil {
 		return err
 	}
-	rows := ""
+	table := [][]string{{"scanners A / B", "events", "n₁ (A)", "n₂ (B)", "m (both)", "Lincoln–Petersen N", "Chapman N ± SE", "efficiency A", "efficiency B", "combined"}}
 	for _, p := range rec {
-		rows += fmt.Sprintf("%s/%s: n₁ = %d, n₂ = %d, m = %d, Lincoln–Petersen N = %s, Chapman N = %s ± %s, combined efficiency %s. ",
-			scan.CleanText(p.A), scan.CleanText(p.B), p.N1, p.N2, p.M, fmt1(p.LincolnPetersen), fmt1(p.Chapman), fmt1(p.ChapmanSE), fmt3(p.Combined))
+		table = append(table, []string{scan.CleanText(p.A + " / " + p.B), fmt.Sprint(p.Events), fmt.Sprint(p.N1), fmt.Sprint(p.N2), fmt.Sprint(p.M),
+			fmt1(p.LincolnPetersen), fmt1(p.Chapman) + " ± " + fmt1(p.ChapmanSE),
+			fmt3(p.EffA.Value) + " [" + fmt3(p.EffA.Low) + ", " + fmt3(p.EffA.High) + "]",
+			fmt3(p.EffB.Value) + " [" + fmt3(p.EffB.Low) + ", " + fmt3(p.EffB.High) + "]", fmt3(p.Combined)})
 	}
 	r.Figures = append(r.Figures, Figure{ID: "efficiency", Title: "Scanning efficiency from double scanning", SVGs: []template.HTML{svg},
-		Definition: fmt.Sprintf("Over the events both scanners of a pair looked at, scanner A found n₁ interactions (any class but %s), B found n₂, both found m. A's efficiency is m/n₂, B's is m/n₁; the pair's combined efficiency is (n₁ + n₂ − m)/N. %s", joinShort(in.Absent), rows),
+		Definition: fmt.Sprintf("Over the events both scanners of a pair looked at, scanner A found n₁ interactions (any class but %s), B found n₂, both found m. A's efficiency is m/n₂, B's is m/n₁; the pair's combined efficiency is (n₁ + n₂ − m)/N with the Lincoln–Petersen N.", joinShort(in.Absent)),
+		Table:      table,
 		Method:     fmt.Sprintf("Capture–recapture: Lincoln–Petersen N = n₁n₂/m; Chapman (1951) N = (n₁+1)(n₂+1)/(m+1) − 1 with the variance of Seber (1982). Bars: %.0f%% Clopper–Pearson (1934) interval on m of n₂ (resp. n₁).", 100*in.CL),
 		Caution:    "Capture–recapture assumes the scanners find interactions independently. Correlated misses — the same hard events missed by both — bias N low and the efficiencies high."})
 	return nil
@@ -303,26 +286,29 @@ func (r *Report) selection(in Input, cons map[string]string, tab *agree.Table) e
 	if err != nil {
 		return err
 	}
-	cl, m := agree.CrossTab(cons, agree.SelectionClasses(sel), order)
-	normaliseRows(m)
-	heat, err := heatMap(Matrix{Title: "consensus vs selection class (selected events)", RowLabel: "consensus",
-		ColLabel: "selection's class", Rows: cleanAll(cl), Cols: cleanAll(cl), Cells: m, Percent: true, RowNormalisedMax: true})
-	if err != nil {
-		return err
-	}
-	svgs := []template.HTML{curve, heat}
+	calls := agree.SelectionCalls(sel)
+	svgs := []template.HTML{curve}
+	tables := []struct {
+		name   string
+		labels map[string]string
+	}{{"consensus", cons}}
 	for ri, name := range tab.Raters {
-		cl, m := agree.CrossTab(tab.Labels(ri), agree.SelectionClasses(sel), order)
-		normaliseRows(m)
-		h, err := heatMap(Matrix{Title: scan.CleanText(name) + " vs selection class", RowLabel: scan.CleanText(name) + "'s answer",
-			ColLabel: "selection's class", Rows: cleanAll(cl), Cols: cleanAll(cl), Cells: m, Percent: true, RowNormalisedMax: true})
+		tables = append(tables, struct {
+			name   string
+			labels map[string]string
+		}{scan.CleanText(name) + "'s answer", tab.Labels(ri)})
+	}
+	for _, tb := range tables {
+		rows, cols, m := callMatrix(tb.labels, calls, order)
+		h, err := heatMap(Matrix{Title: tb.name + " vs the selection's call", RowLabel: tb.name,
+			ColLabel: "selection's call", Rows: cleanAll(rows), Cols: cleanAll(cols), Cells: m, Percent: true, RowNormalisedMax: true})
 		if err != nil {
 			return err
 		}
 		svgs = append(svgs, h)
 	}
 	r.Figures = append(r.Figures, Figure{ID: "selection", Title: "The automated selection against the consensus", SVGs: svgs,
-		Definition: fmt.Sprintf("Signal: consensus class %s. Efficiency = selected signal events / all signal events; purity = selected signal events / all selected events, over the %d events with both a selection output and a consensus. The curves redefine the selection as score ≥ threshold; the dotted line marks the selection's own operating point. The heat maps show, for the selected events, the selection's class against the consensus and against each scanner, row by row as fractions.", joinShort(signal), v.Events),
+		Definition: fmt.Sprintf("Signal: consensus class %s. Efficiency = selected signal events / all signal events; purity = selected signal events / all selected events, over the %d events with both a selection output and a consensus. The curves redefine the selection as score ≥ threshold; the dotted line marks the selection's own operating point. The heat maps show, row by row as fractions, what the selection did with the events of each consensus class (and of each scanner's answers): the class it called, or not selected.", joinShort(signal), v.Events),
 		Method:     fmt.Sprintf("Bands: %.0f%% Clopper–Pearson (1934) intervals, exact binomial, from Beta quantiles.", 100*in.CL),
 		Caution:    "The consensus is itself uncertain: scanner errors that the consensus does not remove bias both efficiency and purity."})
 	return nil
@@ -432,4 +418,40 @@ func cleanAll(s []string) []string {
 		out[i] = scan.CleanText(x)
 	}
 	return out
+}
+
+// callMatrix cross-tabulates labels (rows, in order) against the
+// selection's calls (columns: the classes it called, in order, then "not
+// selected"), normalised per row; empty rows and columns are dropped.
+func callMatrix(labels, calls map[string]string, order []string) (rows, cols []string, m [][]float64) {
+	cats, full := agree.CrossTab(labels, calls, append(slices.Clone(order), agree.NotSelected))
+	colUsed := make([]bool, len(cats))
+	for i := range full {
+		for j, v := range full[i] {
+			colUsed[j] = colUsed[j] || v > 0
+		}
+	}
+	for i, row := range full {
+		var n float64
+		for _, v := range row {
+			n += v
+		}
+		if n == 0 {
+			continue
+		}
+		rows = append(rows, cats[i])
+		var r []float64
+		for j, v := range row {
+			if colUsed[j] {
+				r = append(r, v/n)
+			}
+		}
+		m = append(m, r)
+	}
+	for j, c := range cats {
+		if colUsed[j] {
+			cols = append(cols, c)
+		}
+	}
+	return rows, cols, m
 }
