@@ -63,12 +63,12 @@ func DefaultAdjudicateKeyMap() AdjudicateKeyMap {
 	return AdjudicateKeyMap{
 		Up:        bind("previous dispute", "up", "k"),
 		Down:      bind("next dispute", "down", "j"),
-		PrevLabel: bind("previous scanner", "left", "h"),
-		NextLabel: bind("next scanner", "right", "l"),
-		Accept:    bind("accept the chosen scanner's label", "enter", "a"),
-		Note:      bind("note for the decision", "n"),
-		Marks:     bind("zoom onto the marks", "m"),
-		Page:      bind("disputes / numbers", "s"),
+		PrevLabel: bind("previous label", "left", "h"),
+		NextLabel: bind("next label", "right", "l"),
+		Accept:    bind("accept label", "enter", "a"),
+		Note:      bind("note", "n"),
+		Marks:     bind("frame marks", "m"),
+		Page:      bind("numbers", "s"),
 		Reload:    bind("reload", "r"),
 		Help:      bind("keys", "?"),
 		Cancel:    bind("cancel / close", "esc"),
@@ -290,7 +290,6 @@ func NewAdjudicator(opts AdjudicateOptions) *Adjudicator {
 		a.now = time.Now
 	}
 	a.pv = newPlanes(opts.Tier)
-	a.pv.overlay = a.drawMarks
 	a.numbers = numbersPane{st: &a.st}
 	a.input = textinput.New()
 	a.input.CharLimit = 500
@@ -988,9 +987,8 @@ func (a *Adjudicator) disputeBody(bh int) []string {
 	side := append(block(a.listView(sw-1, listH), sw-1, listH), block(a.labelsView(sw-1), sw-1, bh-listH)...)
 	pl := a.planesLines(a.w-sw, bh)
 	out := make([]string, bh)
-	sep := a.st.Dim.Render("│")
 	for r := range out {
-		out[r] = side[r] + sep + pl[r]
+		out[r] = side[r] + " " + pl[r]
 	}
 	return out
 }
@@ -1014,6 +1012,10 @@ func (a *Adjudicator) planesLines(w, h int) []string {
 		return block("", w, h)
 	}
 	lines := a.pv.render()
+	// Marks go on top of the cursor and the plane links: they are what
+	// is being judged.
+	a.drawMarks(&overlayPen{v: a.pv, c: a.pv.work})
+	lines = a.pv.work.Lines(a.pv.tier)
 	if len(lines) != h {
 		return block(strings.Join(lines, "\n"), w, h)
 	}
@@ -1021,6 +1023,8 @@ func (a *Adjudicator) planesLines(w, h int) []string {
 }
 
 // listView is the dispute list: most contested first, decided at the end.
+// Classes appear as their schema hotkeys, one per vote, so the list stays
+// narrow and teaches the keys that set them.
 func (a *Adjudicator) listView(w, h int) string {
 	open := 0
 	for _, d := range a.disputes {
@@ -1028,16 +1032,21 @@ func (a *Adjudicator) listView(w, h int) string {
 			open++
 		}
 	}
-	lines := []string{a.st.Heading.Render(fmt.Sprintf("Disputes: %d open, %d decided", open, len(a.disputes)-open))}
-	rows := h - 1
+	lines := []string{a.st.Heading.Render(fmt.Sprintf("Disputes: %d open, %d decided", open, len(a.disputes)-open)),
+		a.st.Dim.Render(pad(fmt.Sprintf("  %-11s %4s  %-9s %s", "event", "top", "votes", "sel"), w))}
+	rows := h - 2
 	first := max(0, min(a.cur-rows/2, len(a.disputes)-rows))
 	for i := first; i < len(a.disputes) && i < first+rows; i++ {
 		d := a.disputes[i]
+		mark := " "
+		if i == a.cur {
+			mark = "▸"
+		}
 		var s string
 		if d.Decided != nil {
-			s = fmt.Sprintf("✓ %-10s → %s", trunc(scan.CleanText(d.Event), 10), a.className(d.Decided.Label.Class))
+			s = fmt.Sprintf("%s✓%-11s → %s", mark, trunc(scan.CleanText(d.Event), 11), a.className(d.Decided.Label.Class))
 		} else {
-			s = fmt.Sprintf("  %-10s %3.0f%% of %d  %s", trunc(scan.CleanText(d.Event), 10), 100*d.Share, len(d.Votes), a.voteSummary(&d))
+			s = fmt.Sprintf("%s %-11s %3.0f%%  %-9s %s", mark, trunc(scan.CleanText(d.Event), 11), 100*d.Share, a.voteSummary(&d), a.selSummary(&d))
 		}
 		s = pad(s, w)
 		if i == a.cur {
@@ -1050,30 +1059,52 @@ func (a *Adjudicator) listView(w, h int) string {
 	return strings.Join(lines, "\n")
 }
 
-// voteSummary lists the classes voted, most votes first: "3:2 nue".
+// voteSummary lists one class key per vote, most chosen class first:
+// "1 1 5".
 func (a *Adjudicator) voteSummary(d *dispute) string {
 	counts := map[string]int{}
 	for _, v := range d.Votes {
 		counts[v.Label.Class]++
 	}
 	keys := slices.Sorted(mapKeysInt(counts))
-	slices.SortStableFunc(keys, func(x, y string) int { return -cmp.Compare(counts[x], counts[y]) })
+	slices.SortStableFunc(keys, func(x, y string) int {
+		return cmp.Or(-cmp.Compare(counts[x], counts[y]), cmp.Compare(a.classIndex(x), a.classIndex(y)))
+	})
 	var parts []string
 	for _, k := range keys {
-		parts = append(parts, fmt.Sprintf("%d %s", counts[k], a.classHotkeyOrKey(k)))
+		for range counts[k] {
+			parts = append(parts, a.classShort(k))
+		}
 	}
-	if s := d.Selection; s != nil && s.Selected && counts[s.Class] < len(d.Votes) {
-		parts = append(parts, "sel "+a.classHotkeyOrKey(s.Class))
-	}
-	return strings.Join(parts, "·")
+	return strings.Join(parts, " ")
 }
 
-// classHotkeyOrKey is a class's short name in the list: its hotkey digit
-// in brackets keeps the list narrow and teaches the keys.
-func (a *Adjudicator) classHotkeyOrKey(k string) string {
+// selSummary is the selection's class when it selected the event.
+func (a *Adjudicator) selSummary(d *dispute) string {
+	s := d.Selection
+	switch {
+	case s == nil:
+		return ""
+	case !s.Selected:
+		return "–"
+	}
+	return a.classShort(s.Class)
+}
+
+// classIndex is a class's place in the schema (unknown classes last).
+func (a *Adjudicator) classIndex(k string) int {
+	i := slices.IndexFunc(a.camp.Schema.Classes, func(c scan.Choice) bool { return c.Key == k })
+	if i < 0 {
+		return len(a.camp.Schema.Classes)
+	}
+	return i
+}
+
+// classShort is a class's hotkey, or its key when it has none.
+func (a *Adjudicator) classShort(k string) string {
 	for _, c := range a.camp.Schema.Classes {
 		if c.Key == k && c.Hotkey != "" {
-			return "[" + scan.CleanText(c.Hotkey) + "]"
+			return scan.CleanText(c.Hotkey)
 		}
 	}
 	return scan.CleanText(k)
@@ -1093,13 +1124,9 @@ func (a *Adjudicator) labelsView(w int) string {
 	if s := d.Selection; s != nil {
 		what := "rejected"
 		if s.Selected {
-			what = "selected as " + a.className(s.Class)
+			what = a.className(s.Class)
 		}
-		box := ""
-		if s.Box != nil {
-			box = "  box " + string([]rune{selectionStyle.tl, selectionStyle.h, selectionStyle.h})
-		}
-		add(fmt.Sprintf("selection: %s, score %.2f%s", what, s.Score, box))
+		add(fmt.Sprintf("selection: %s (score %.2f)", what, s.Score))
 	}
 	for k, v := range d.Votes {
 		s := a.styleOf[v.Scanner]
@@ -1166,7 +1193,7 @@ func (a *Adjudicator) legendLine() string {
 	if s := d.Selection; s != nil && s.Box != nil {
 		parts = append(parts, a.ink(selectionStyle, string([]rune{selectionStyle.tl, selectionStyle.h, selectionStyle.h}))+" selection box")
 	}
-	parts = append(parts, "✚ cursor")
+	parts = append(parts, "✚ zoom centre")
 	return pad(strings.Join(parts, "  "), a.w)
 }
 
@@ -1194,9 +1221,12 @@ func (a *Adjudicator) statusLine() string {
 func (a *Adjudicator) shortHelp() []key.Binding {
 	k := a.keys
 	if a.page == pageNumbers {
-		return []key.Binding{k.Page, k.Up, k.Down, k.Reload, k.Help, k.Quit}
+		back := key.NewBinding(key.WithKeys(k.Page.Keys()...), key.WithHelp(k.Page.Help().Key, "disputes"))
+		up := key.NewBinding(key.WithKeys(k.Up.Keys()...), key.WithHelp(k.Up.Help().Key, "scroll up"))
+		down := key.NewBinding(key.WithKeys(k.Down.Keys()...), key.WithHelp(k.Down.Help().Key, "scroll down"))
+		return []key.Binding{back, up, down, k.Reload, k.Help, k.Quit}
 	}
-	return []key.Binding{k.Down, k.NextLabel, k.Accept, a.classBinding(), k.Note, k.Marks, k.Page, k.Help, k.Quit}
+	return []key.Binding{k.Down, k.NextLabel, k.Accept, a.classBinding(), k.Note, k.Page, k.Help, k.Quit, k.Marks}
 }
 
 // classBinding describes the schema's class hotkeys in one help entry.

@@ -378,11 +378,13 @@ func (p *numbersPane) lines(w int) []string {
 	n, st := p.num, p.st
 	var out []string
 	add := func(format string, a ...any) { out = append(out, fmt.Sprintf(format, a...)) }
-	head := func(s string) { out = append(out, "", st.Heading.Render(s)) }
+	head := func(s, how string) {
+		out = append(out, "", st.Heading.Render(s)+"  "+st.Dim.Render(how))
+	}
 	add(" %s  ·  %d events  ·  %d scanners per event  ·  %d submitted labels", n.Campaign, n.Events, n.K, n.Ratings)
 
-	head("Progress")
-	add("  events done   %s  %d / %d  (done: %d submitted passes)", bar(n.Done, n.Events, 20), n.Done, n.Events, n.K)
+	head("Progress", fmt.Sprintf("(an event is done with %d submitted passes)", n.K))
+	add("  events done   %s  %d / %d", bar(n.Done, n.Events, 20), n.Done, n.Events)
 	if len(n.Scanners) > 0 {
 		add("  %-16s %9s %6s %8s %12s", "scanner", "submitted", "open", "skipped", "median time")
 	}
@@ -392,9 +394,9 @@ func (p *numbersPane) lines(w int) []string {
 
 	pct := fmt.Sprintf("%.0f%%", 100*n.Opts.CL)
 	if n.CIs != nil {
-		head(fmt.Sprintf("Agreement on the class  (nominal; %s bootstrap intervals over events, %d resamples)", pct, n.CIs.Resamples))
+		head("Agreement on the class", fmt.Sprintf("(nominal; %s bootstrap intervals over events, %d resamples)", pct, n.CIs.Resamples))
 	} else {
-		head("Agreement on the class  (nominal)")
+		head("Agreement on the class", "(nominal)")
 	}
 	if a := n.Agreement; a != nil {
 		ci := func(c func(*agree.AgreementCIs) agree.CI) string {
@@ -419,19 +421,19 @@ func (p *numbersPane) lines(w int) []string {
 		add("  %s", st.Dim.Render(scan.CleanText(n.AgreeNote)))
 	}
 
-	head(fmt.Sprintf("Scanning efficiency  (capture–recapture; \"no interaction\" = %s; %s Clopper–Pearson)", strings.Join(n.Opts.Absent, ", "), pct))
+	head("Scanning efficiency", fmt.Sprintf("(capture–recapture; no interaction = %s; %s Clopper–Pearson)", strings.Join(cleanList(n.Opts.Absent), ", "), pct))
 	if len(n.Efficiency) == 0 {
 		add("  %s", st.Dim.Render("needs two scanners on the same events"))
 	} else {
-		add("  %-24s %4s %4s %4s %14s %20s %20s %8s", "pair", "n₁", "n₂", "m", "Chapman N", "efficiency A", "efficiency B", "combined")
+		add("  %-24s %4s %4s %4s %13s  %-23s %-23s %s", "pair A – B", "n₁", "n₂", "m", "Chapman N", "A's efficiency m/n₂", "B's efficiency m/n₁", "combined")
 		for _, r := range n.Efficiency {
-			add("  %-24s %4d %4d %4d %14s %20s %20s %8s", trunc(scan.CleanText(r.A)+" – "+scan.CleanText(r.B), 24), r.N1, r.N2, r.M,
+			add("  %-24s %4d %4d %4d %13s  %-23s %-23s %s", trunc(scan.CleanText(r.A)+" – "+scan.CleanText(r.B), 24), r.N1, r.N2, r.M,
 				num1(r.Chapman)+" ± "+num1(r.ChapmanSE), propText(r.EffA), propText(r.EffB), num3(r.Combined))
 		}
 		add("  %s", st.Dim.Render("assumes independent misses: the same hard events missed by both bias N low."))
 	}
 
-	head("Selection against the consensus")
+	head("Selection against the consensus", "")
 	add("  consensus: %s", n.Consensus)
 	if n.Tied > 0 {
 		add("  %d events tied under majority vote: adjudicate them", n.Tied)
