@@ -47,7 +47,7 @@ func TestGenerateDeterministic(t *testing.T) {
 func TestGenerateEvents(t *testing.T) {
 	det := detector.Tarn()
 	seen := map[string]int{}
-	for i := range 60 {
+	for i := range 40 {
 		ev, tr := Generate(det, Options{Seed: 2}, i)
 		if err := ev.Validate(); err != nil {
 			t.Fatalf("event %d: %v", i, err)
@@ -93,7 +93,7 @@ func TestGenerateEvents(t *testing.T) {
 	}
 	for _, c := range Classes() {
 		if seen[c] == 0 {
-			t.Errorf("no %s event among 60 with the default mix", c)
+			t.Errorf("no %s event among 40 with the default mix", c)
 		}
 	}
 }
