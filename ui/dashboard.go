@@ -436,7 +436,7 @@ func (p *numbersPane) lines(w int) []string {
 	head("Selection against the consensus", "")
 	add("  consensus: %s", n.Consensus)
 	if n.Tied > 0 {
-		add("  %d events tied under majority vote: adjudicate them", n.Tied)
+		add("  %d %s tied under majority vote: adjudicate %s", n.Tied, plural(n.Tied, "event", "events"), plural(n.Tied, "it", "them"))
 	}
 	if v := n.Selection; v != nil {
 		add("  signal %s over %d events (%s Clopper–Pearson)", strings.Join(cleanList(n.Signal), ", "), v.Events, pct)
@@ -449,6 +449,13 @@ func (p *numbersPane) lines(w int) []string {
 		out[i] = pad(out[i], w)
 	}
 	return out
+}
+
+func plural(n int, one, many string) string {
+	if n == 1 {
+		return one
+	}
+	return many
 }
 
 func cleanList(s []string) []string {
