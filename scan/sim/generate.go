@@ -213,9 +213,14 @@ func (g *generator) emit(k kind, pdg int, pos, dir vec, ke float64, parent int, 
 	g.tr.code = int32(id)
 	g.tr.shift = float32(t0Us / g.det.SamplingUs)
 	end, stopped := pos, false
+	var te trackEnd
 	switch k {
 	case kMuon, kPion, kProton:
-		te := g.tr.heavy(species(k-kMuon), pos, dir, ke) // kMuon, kPion, kProton follow spMuon, spPion, spProton
+		maxLen := math.Inf(1)
+		if k != kMuon && ke > hadronicMinMeV {
+			maxLen = expo(g.r, hadronicLambdaCm)
+		}
+		te = g.tr.heavy(species(k-kMuon), pos, dir, ke, maxLen) // kMuon, kPion, kProton follow spMuon, spPion, spProton
 		end, stopped = te.pos, te.stopped
 	case kElectron:
 		end = g.tr.electron(pos, dir, ke)
@@ -228,8 +233,10 @@ func (g *generator) emit(k kind, pdg int, pos, dir vec, ke float64, parent int, 
 	}
 	g.tr.drain()
 	p := &g.truth.Particles[id-1]
-	p.End, p.Stopped = end, stopped && g.vol.contains(end)
+	p.End, p.Stopped, p.Interacted = end, stopped && g.vol.contains(end), te.interacted
 	switch {
+	case te.interacted:
+		g.hadronic(te, pdg, id, t0Us, origin)
 	case k == kMuon && p.Stopped && (pdg == -13 || g.r.Float64() < muMinusDecay):
 		g.michel(end, id, t0Us, origin)
 	case k == kPion && p.Stopped && pdg == 211:
@@ -239,6 +246,33 @@ func (g *generator) emit(k kind, pdg int, pos, dir vec, ke float64, parent int, 
 		g.emit(kMuon, -13, end, isotropic(g.r), (massPi-massMu)*(massPi-massMu)/(2*massPi), id, t0Us, origin)
 	}
 	return id
+}
+
+// Nuclear interactions of protons and charged pions.
+const (
+	hadronicLambdaCm = 85.7 // nuclear interaction length of LAr, 119.7 g/cm² ([PDG-LAr], from memory); used for pions too
+	hadronicMinMeV   = 40.0 // below this kinetic energy tracks are not given interactions
+)
+
+// hadronic ends a proton or pion track in a nuclear interaction with an
+// invented break-up: a pion goes on as a pion half of the time (a kink,
+// with 40–80% of its energy), and up to two protons share at most 60% of
+// what is left; the rest goes to neutrons and binding, which leave no charge.
+func (g *generator) hadronic(te trackEnd, pdg, parent int, t0Us float64, origin string) {
+	budget := 0.6 * te.t
+	if (pdg == 211 || pdg == -211) && g.r.Float64() < 0.5 {
+		tp := te.t * (0.4 + 0.4*g.r.Float64())
+		budget = 0.6 * (te.t - tp)
+		g.emit(kPion, pdg, te.pos, rotate(te.dir, 1-0.7*g.r.Float64(), 2*math.Pi*g.r.Float64()), tp, parent, t0Us, origin)
+	}
+	for range g.r.IntN(3) {
+		tk := 15 + expo(g.r, 60)
+		if tk > budget {
+			break
+		}
+		budget -= tk
+		g.emit(kProton, 2212, te.pos, isotropic(g.r), tk, parent, t0Us, origin)
+	}
 }
 
 // exitPoint is where a straight line from pos along dir leaves the volume.

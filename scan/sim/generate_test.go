@@ -111,9 +111,11 @@ func checkClassContents(t *testing.T, tr *Truth) {
 		}
 		if p.Parent > 0 {
 			parent := tr.Particles[p.Parent-1]
-			// Children: π0 photons, decay muons of stopped π⁺ (4.12 MeV,
-			// PDG masses), Michel electrons (≤ 52.83 MeV) of stopped muons.
+			// Children: π0 photons, products of nuclear interactions, decay
+			// muons of stopped π⁺ (4.12 MeV, PDG masses), Michel electrons
+			// (≤ 52.83 MeV) of stopped muons.
 			ok := parent.Type == "pi0" && p.Type == "photon" ||
+				parent.Interacted && (p.Type == "proton" || p.Type == "pion" && parent.Type == "pion") && p.KEMeV < parent.KEMeV ||
 				parent.Type == "pion" && parent.Stopped && p.Type == "muon" && math.Abs(p.KEMeV-4.12) < 0.01 ||
 				parent.Type == "muon" && parent.Stopped && p.Type == "electron" && p.KEMeV <= 52.83
 			if !ok {
@@ -323,7 +325,7 @@ func TestMIPWireCharge(t *testing.T) {
 	for k := range 40 {
 		x := 20 + 2*float64(k) // 25 ticks apart: pulses of σ ≈ 2.5 ticks do not overlap
 		xs = append(xs, x)
-		g.tr.heavy(spMuon, vec{x, 0, 100.2}, vec{0, 0, 1}, muonT(1000))
+		g.tr.heavy(spMuon, vec{x, 0, 100.2}, vec{0, 0, 1}, muonT(1000), math.Inf(1))
 	}
 	planes, _ := g.readout(SizeDemo, vec{60, 0, 100})
 	ci := det.PlaneIndex(detector.Collection)

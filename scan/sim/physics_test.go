@@ -68,7 +68,7 @@ func stepMuons(n int, t0, thick float64) (dEdx, dQdx float64) {
 	var lost, length, charge float64
 	for range n {
 		tr := newTransport(r, vol, 0.5)
-		end := tr.heavy(spMuon, vec{0, 0, 0}, vec{0, 0, 1}, t0)
+		end := tr.heavy(spMuon, vec{0, 0, 0}, vec{0, 0, 1}, t0, math.Inf(1))
 		tr.drain()
 		lost += t0 - end.t
 		length += end.length
@@ -152,7 +152,7 @@ func TestCSDARanges(t *testing.T) {
 		const n = 200
 		for range n {
 			tr := newTransport(r, unbounded(), 0.5)
-			end := tr.heavy(spProton, vec{}, vec{0, 0, 1}, c.t)
+			end := tr.heavy(spProton, vec{}, vec{0, 0, 1}, c.t, math.Inf(1))
 			if !end.stopped {
 				t.Fatalf("proton of %g MeV did not stop in an unbounded medium", c.t)
 			}
@@ -172,7 +172,7 @@ func TestCSDARanges(t *testing.T) {
 // >10 MeV/cm in the last cm).
 func TestBraggPeak(t *testing.T) {
 	tr := newTransport(eventRand(13, 0), unbounded(), 0.5)
-	end := tr.heavy(spProton, vec{}, vec{0, 0, 1}, 200)
+	end := tr.heavy(spProton, vec{}, vec{0, 0, 1}, 200, math.Inf(1))
 	var first, last float64
 	for _, d := range tr.deps {
 		s := float64(d.a[2])

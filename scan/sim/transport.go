@@ -96,27 +96,32 @@ func stepTheta0(p, beta, ds float64) float64 {
 
 // trackEnd is how a stepped track ended.
 type trackEnd struct {
-	pos     vec
-	t       float64 // kinetic energy left (0 if it stopped)
-	length  float64 // path length travelled, cm
-	stopped bool    // ranged out inside the volume
+	pos, dir   vec
+	t          float64 // kinetic energy left (0 if it stopped)
+	length     float64 // path length travelled, cm
+	stopped    bool    // ranged out inside the volume
+	interacted bool    // reached maxLen: a nuclear interaction
 }
 
 // heavy steps a muon, pion or proton of kinetic energy t (MeV) from pos
-// along dir until it stops or leaves the volume.
-func (tr *transport) heavy(sp species, pos, dir vec, t float64) trackEnd {
+// along dir until it stops, leaves the volume, or has travelled maxLen cm
+// (where the caller puts a nuclear interaction; +Inf for none).
+func (tr *transport) heavy(sp species, pos, dir vec, t, maxLen float64) trackEnd {
 	rt := rangeTables()[sp]
 	m := sp.mass()
 	var length float64
 	for {
 		if !tr.vol.contains(pos) {
-			return trackEnd{pos: pos, t: t, length: length}
+			return trackEnd{pos: pos, dir: dir, t: t, length: length}
+		}
+		if length >= maxLen {
+			return trackEnd{pos: pos, dir: dir, t: t, length: length, interacted: true}
 		}
 		r := rt.Range(t)
 		if r <= 2*minStepCm {
 			end := pos.axpy(r, dir)
 			tr.depositSeg(pos, end, t, t/max(r, 1e-4))
-			return trackEnd{pos: end, length: length + r, stopped: true}
+			return trackEnd{pos: end, dir: dir, length: length + r, stopped: true}
 		}
 		ds := stepCm
 		if r < 2*stepCm {
@@ -138,7 +143,7 @@ func (tr *transport) heavy(sp species, pos, dir vec, t float64) trackEnd {
 		pos, dir = np, nd
 		length += ds
 		if t <= 0 {
-			return trackEnd{pos: pos, length: length, stopped: true}
+			return trackEnd{pos: pos, dir: dir, length: length, stopped: true}
 		}
 	}
 }

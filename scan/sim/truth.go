@@ -58,7 +58,7 @@ type Particle struct {
 	Type   string     `json:"type"` // muon, pion, proton, electron, photon, pi0
 	PDG    int        `json:"pdg"`
 	Start  [3]float64 `json:"start"`
-	End    [3]float64 `json:"end"` // stop, exit, decay or (photons) first interaction point
+	End    [3]float64 `json:"end"` // stop, exit, nuclear interaction or (photons) first interaction point
 	KEMeV  float64    `json:"ke_mev"`
 	Parent int        `json:"parent"` // id of the parent particle, 0 for primaries
 	// T0Us is the particle's time relative to the trigger in µs: 0 for the
@@ -68,4 +68,7 @@ type Particle struct {
 	Origin string `json:"origin"`
 	// Stopped is true when the particle ranged out inside the active volume.
 	Stopped bool `json:"stopped,omitempty"`
+	// Interacted is true when a proton or pion track ended in a nuclear
+	// interaction at End; its visible products have it as parent.
+	Interacted bool `json:"interacted,omitempty"`
 }
