@@ -154,12 +154,10 @@ func New(cfg Config) (*Server, error) {
 
 // lockDown removes everything but an interactive session: only "session"
 // channels (no direct-tcpip or other forwarding channels), no global
-// requests (no tcpip-forward), no subsystems (no sftp), no exec, and a
-// refusal of password and keyboard-interactive logins, which are logged.
-// Agent forwarding requests get wish's stock reply but no agent channel is
-// ever opened, and X11 requests are refused.
+// requests (no tcpip-forward), no subsystems (no sftp), no exec, no agent
+// or X11 forwarding, and no password or keyboard-interactive logins.
 func (s *Server) lockDown(srv *ssh.Server) {
-	srv.ChannelHandlers = map[string]ssh.ChannelHandler{"session": ssh.DefaultSessionHandler}
+	srv.ChannelHandlers = map[string]ssh.ChannelHandler{"session": s.sessionChannel}
 	srv.RequestHandlers = map[string]ssh.RequestHandler{}
 	srv.SubsystemHandlers = map[string]ssh.SubsystemHandler{}
 	srv.LocalPortForwardingCallback = nil
@@ -174,6 +172,46 @@ func (s *Server) lockDown(srv *ssh.Server) {
 	srv.ConnectionFailedCallback = func(c net.Conn, err error) {
 		s.log.Info("connection failed", "remote", c.RemoteAddr().String(), "err", err)
 	}
+}
+
+// refusedRequest says which session requests are refused before the SSH
+// library sees them (it would accept an agent forwarding request).
+func refusedRequest(kind string) bool {
+	return kind == "auth-agent-req@openssh.com" || kind == "x11-req"
+}
+
+// sessionChannel is the stock session handler behind a filter that
+// refuses agent and X11 forwarding requests.
+func (s *Server) sessionChannel(srv *ssh.Server, conn *gossh.ServerConn, nc gossh.NewChannel, ctx ssh.Context) {
+	ssh.DefaultSessionHandler(srv, conn, filteredChannel{NewChannel: nc, log: s.log}, ctx)
+}
+
+// filteredChannel accepts a channel and drops the refused requests.
+type filteredChannel struct {
+	gossh.NewChannel
+	log *slog.Logger
+}
+
+func (f filteredChannel) Accept() (gossh.Channel, <-chan *gossh.Request, error) {
+	ch, reqs, err := f.NewChannel.Accept()
+	if err != nil {
+		return ch, reqs, err
+	}
+	out := make(chan *gossh.Request)
+	go func() {
+		defer close(out)
+		for r := range reqs {
+			if refusedRequest(r.Type) {
+				f.log.Warn("request refused", "kind", r.Type)
+				if r.WantReply {
+					_ = r.Reply(false, nil)
+				}
+				continue
+			}
+			out <- r
+		}
+	}()
+	return ch, out, nil
 }
 
 // allowRequest accepts a shell request (a plain "ssh host") and refuses

@@ -250,6 +250,28 @@ func TestRefusals(t *testing.T) {
 			t.Errorf("err = %v", err)
 		}
 	})
+	for _, kind := range []string{"auth-agent-req@openssh.com", "x11-req"} {
+		t.Run(kind, func(t *testing.T) {
+			s, err := c.NewSession()
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer s.Close()
+			// RFC 4254 section 6.3.1: x11-req carries single-connection, protocol, cookie, screen.
+			payload := gossh.Marshal(struct {
+				Single        bool
+				Proto, Cookie string
+				Screen        uint32
+			}{false, "MIT-MAGIC-COOKIE-1", "00", 0})
+			if kind != "x11-req" {
+				payload = nil
+			}
+			ok, err := s.SendRequest(kind, true, payload)
+			if err != nil || ok {
+				t.Errorf("%s: ok=%v err=%v, want a refusal", kind, ok, err)
+			}
+		})
+	}
 	t.Run("shell without pty", func(t *testing.T) {
 		s, err := c.NewSession()
 		if err != nil {
