@@ -1,8 +1,11 @@
 package ui
 
 import (
+	"strings"
+
 	"github.com/charmbracelet/bubbles/key"
 	tea "github.com/charmbracelet/bubbletea"
+	"github.com/charmbracelet/lipgloss"
 
 	"github.com/tpcscan/tpcscan/render"
 )
@@ -55,13 +58,43 @@ func (m *Model) fullHelp() [][]key.Binding {
 func (m *Model) helpView() string {
 	title := m.st.Heading.Render("keys") + m.st.Dim.Render("  (mouse: click moves the cursor, wheel zooms, drag pans; "+
 		m.keys.Help.Help().Key+" or "+m.keys.Cancel.Help().Key+" closes)")
-	return title + "\n\n" + m.help.FullHelpView(m.fullHelp())
+	return title + "\n\n" + m.helpColumns(m.fullHelp())
+}
+
+// helpColumns lays the help groups out in as many bands as the width
+// needs (help.Model drops groups that do not fit on one band).
+func (m *Model) helpColumns(groups [][]key.Binding) string {
+	var bands []string
+	var band [][]key.Binding
+	wide := m.help
+	wide.Width = 0 // measure without truncation
+	for _, g := range groups {
+		try := append(append([][]key.Binding(nil), band...), g)
+		if len(band) > 0 && lipgloss.Width(wide.FullHelpView(try)) > m.width {
+			bands = append(bands, wide.FullHelpView(band))
+			band = nil
+		}
+		band = append(band, g)
+	}
+	if len(band) > 0 {
+		bands = append(bands, wide.FullHelpView(band))
+	}
+	return strings.Join(bands, "\n\n")
 }
 
 // onKey handles a key: text entry first, then global keys, overlays, the
 // scanning session, and finally the display.
 func (m *Model) onKey(msg tea.KeyMsg) tea.Cmd {
 	k := m.keys
+	// Keys typed quickly (or batched by a slow link) can arrive as one
+	// message holding several runes; outside text entry each is a key.
+	if msg.Type == tea.KeyRunes && len(msg.Runes) > 1 && !msg.Paste && !(m.sess != nil && m.sess.capturing()) {
+		var cmds []tea.Cmd
+		for _, r := range msg.Runes {
+			cmds = append(cmds, m.onKey(tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune{r}, Alt: msg.Alt}))
+		}
+		return tea.Batch(cmds...)
+	}
 	if m.sess != nil && m.sess.capturing() {
 		if key.Matches(msg, k.Quit) {
 			return m.quit()

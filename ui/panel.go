@@ -69,7 +69,7 @@ func (s *session) panelView() string {
 	} else {
 		line("%s", st.Saved.Render("ready: "+s.m.keys.Submit.Help().Key+" submits"))
 	}
-	return st.Panel.Height(max(s.h, 1)).Render(strings.TrimRight(b.String(), "\n"))
+	return st.Panel.Width(max(s.w-1, 1)).Height(max(s.h, 1)).Render(strings.TrimRight(b.String(), "\n"))
 }
 
 func (s *session) verifyLines(line func(string, ...any)) {

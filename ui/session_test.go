@@ -282,3 +282,20 @@ func TestDefaultKeysLeaveSchemaFree(t *testing.T) {
 		t.Error(err)
 	}
 }
+
+// TestScanHelpShowsSchemaKeys: the help overlay lists the schema's
+// hotkeys with the scanning keys, even at 80 columns.
+func TestScanHelpShowsSchemaKeys(t *testing.T) {
+	f := newScanFixture(t, scan.ModeLabel, 1)
+	for _, w := range []int{200, 100} {
+		m := f.open(t, "fay", w, 60)
+		keys(t, m, "?")
+		out := ansi.Strip(m.View())
+		for _, want := range []string{"class νμ CC", "particle μ", "flag not contained", "confidence 3 certain", "submit", "vertex at cursor"} {
+			if !strings.Contains(out, want) {
+				t.Errorf("%d columns: help lacks %q", w, want)
+			}
+		}
+		send(t, m, ShutdownMsg{})
+	}
+}

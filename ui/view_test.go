@@ -6,6 +6,7 @@ import (
 	"strings"
 	"testing"
 
+	tea "github.com/charmbracelet/bubbletea"
 	"github.com/charmbracelet/x/ansi"
 	"github.com/charmbracelet/x/exp/golden"
 
@@ -307,5 +308,16 @@ func TestHelpListsEveryKey(t *testing.T) {
 	keys(t, m, "esc")
 	if m.showHelp {
 		t.Error("esc did not close help")
+	}
+}
+
+// TestBatchedRunes: several keys arriving in one message (fast typing, a
+// slow link) act one by one.
+func TestBatchedRunes(t *testing.T) {
+	m := newViewModel(t, newSynthSource(1, 400), 160, 48, render.TierMono)
+	wpp := m.pv.win.WPP[0]
+	send(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("++")})
+	if got := m.pv.win.WPP[0]; math.Abs(got-wpp/4) > 1e-9 {
+		t.Errorf("after \"++\" in one message: %g wires per pixel, want %g", got, wpp/4)
 	}
 }
