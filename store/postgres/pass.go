@@ -95,12 +95,13 @@ func readInfo(ctx context.Context, tx pgx.Tx, campaignID int64) (info, error) {
 // the campaign's shuffled ring read from the scanner's offset: first
 // events waiting for an extra pass, then any that still need a scanner.
 //
-// Race-free across servers: the event row is taken with FOR UPDATE SKIP
-// LOCKED, so concurrent sessions pick different events without waiting on
-// each other, and its taken counter never passes needed; an advisory lock
-// per (campaign, scanner) keeps one scanner's two sessions from opening
-// two passes at once; the unique (campaign, event, scanner) key makes a
-// second pass of one event by one scanner impossible.
+// The work is the server-side function next_pass (migrations/001), one
+// round trip. It is race-free across servers: the event row is taken with
+// FOR UPDATE SKIP LOCKED, so concurrent sessions pick different events
+// without waiting on each other, and its taken counter never passes
+// needed; an advisory lock per (campaign, scanner) keeps one scanner's two
+// sessions from opening two passes at once; the unique (campaign, event,
+// scanner) key makes a second pass of one event by one scanner impossible.
 func (s *Store) NextPass(ctx context.Context, campaignID int64, scanner string) (scan.Pass, error) {
 	if err := checkScanner(scanner); err != nil {
 		return scan.Pass{}, err
@@ -114,62 +115,17 @@ func (s *Store) NextPass(ctx context.Context, campaignID int64, scanner string) 
 		if len(ci.roster) > 0 && !slices.Contains(ci.roster, scanner) {
 			return fmt.Errorf("%q may not join (roster: %v): %w", scanner, ci.roster, store.ErrUnknownScanner)
 		}
-		if _, err := tx.Exec(ctx, "SELECT pg_advisory_xact_lock($1, hashtext($2))", int32(campaignID), scanner); err != nil {
-			return err
+		start := campaign.StartOffset(ci.seed, scanner, ci.nEvents)
+		p, err = scanPass(tx.QueryRow(ctx, "SELECT * FROM next_pass($1, $2, $3, $4)", campaignID, scanner, start, ci.perEvent))
+		if errors.Is(err, pgx.ErrNoRows) {
+			return store.ErrNoWork
 		}
-		p, err = scanPass(tx.QueryRow(ctx, passFrom+`WHERE p.campaign_id = $1 AND p.scanner = $2
-			AND p.state IN ('assigned', 'draft') ORDER BY p.id LIMIT 1`, campaignID, scanner))
-		if !errors.Is(err, pgx.ErrNoRows) {
-			return err
-		}
-		eventID, round, err := takeEvent(ctx, tx, campaignID, scanner, ci)
-		if err != nil {
-			return err
-		}
-		p = scan.Pass{CampaignID: campaignID, EventID: eventID, Scanner: scanner, Round: round, State: scan.PassAssigned}
-		err = tx.QueryRow(ctx, `INSERT INTO passes (campaign_id, event_id, scanner, round, state, assigned, updated)
-			VALUES ($1, $2, $3, $4, 'assigned', clock_timestamp(), clock_timestamp()) RETURNING id, assigned`,
-			campaignID, eventID, scanner, round).Scan(&p.ID, &p.Assigned)
-		p.Updated = p.Assigned
 		return err
 	})
 	if err != nil {
 		return p, fmt.Errorf("next pass of %q in campaign %d: %w", scanner, campaignID, err)
 	}
 	return p, nil
-}
-
-// takeEvent locks the next event for the scanner, counts the pass as
-// taken and returns the event and the round of the new pass.
-func takeEvent(ctx context.Context, tx pgx.Tx, campaignID int64, scanner string, ci info) (string, int, error) {
-	const q = `UPDATE events u SET taken = u.taken + 1
-		FROM (SELECT e.event_id FROM events e
-			WHERE e.campaign_id = $1 AND e.taken < e.needed AND %s
-			AND NOT EXISTS (SELECT 1 FROM passes p
-				WHERE p.campaign_id = $1 AND p.event_id = e.event_id AND p.scanner = $2)
-			ORDER BY e.pos LIMIT 1 FOR UPDATE SKIP LOCKED) next
-		WHERE u.campaign_id = $1 AND u.event_id = next.event_id
-		RETURNING u.event_id, u.taken - 1, u.extra_round`
-	start := campaign.StartOffset(ci.seed, scanner, ci.nEvents)
-	// Extra-round events first, then the ring from the offset to its end,
-	// then from its start: each one seek on a partial index.
-	for _, where := range []string{"e.extra_round > 1 AND $3::integer IS NOT NULL", "e.pos >= $3", "e.pos < $3"} {
-		var id string
-		var taken, extraRound int
-		err := tx.QueryRow(ctx, fmt.Sprintf(q, where), campaignID, scanner, start).Scan(&id, &taken, &extraRound)
-		if errors.Is(err, pgx.ErrNoRows) {
-			continue
-		}
-		if err != nil {
-			return "", 0, err
-		}
-		round := 1
-		if taken >= ci.perEvent {
-			round = extraRound
-		}
-		return id, round, nil
-	}
-	return "", 0, store.ErrNoWork
 }
 
 // checkScanner refuses names that could not be shown or typed.

@@ -100,3 +100,71 @@ CREATE TABLE resume (
 	updated     timestamptz NOT NULL,
 	PRIMARY KEY (campaign_id, scanner)
 );
+
+-- next_pass is NextPass in one round trip: the scanner's open pass if any,
+-- else the next event on the shuffled ring from the scanner's offset that
+-- still wants a pass and that the scanner has not had (events waiting for
+-- an extra pass first), taken with FOR UPDATE SKIP LOCKED so that
+-- concurrent servers never wait on each other nor take the same slot. The
+-- advisory lock keeps one scanner's two sessions from opening two passes.
+-- Each statement here sees what committed before it (READ COMMITTED), so
+-- the open-pass check after the lock sees the other session's pass. No
+-- row back means no work.
+CREATE FUNCTION next_pass(p_campaign bigint, p_scanner text, p_start integer, p_per_event integer)
+RETURNS TABLE (o_id bigint, o_campaign_id bigint, o_event_id text, o_scanner text, o_round integer,
+	o_state text, o_assigned timestamptz, o_updated timestamptz, o_seconds double precision,
+	o_label jsonb, o_revisions integer)
+LANGUAGE plpgsql AS $$
+DECLARE
+	v_id    bigint;
+	v_event text;
+	v_taken integer;
+	v_extra integer;
+BEGIN
+	PERFORM pg_advisory_xact_lock(p_campaign::integer, hashtext(p_scanner));
+	SELECT p.id INTO v_id FROM passes p
+		WHERE p.campaign_id = p_campaign AND p.scanner = p_scanner AND p.state IN ('assigned', 'draft')
+		ORDER BY p.id LIMIT 1;
+	IF v_id IS NULL THEN
+		UPDATE events u SET taken = u.taken + 1
+			FROM (SELECT e.event_id FROM events e
+				WHERE e.campaign_id = p_campaign AND e.taken < e.needed AND e.extra_round > 1
+				AND NOT EXISTS (SELECT 1 FROM passes p
+					WHERE p.campaign_id = p_campaign AND p.event_id = e.event_id AND p.scanner = p_scanner)
+				ORDER BY e.pos LIMIT 1 FOR UPDATE SKIP LOCKED) n
+			WHERE u.campaign_id = p_campaign AND u.event_id = n.event_id
+			RETURNING u.event_id, u.taken - 1, u.extra_round INTO v_event, v_taken, v_extra;
+		IF v_event IS NULL THEN
+			UPDATE events u SET taken = u.taken + 1
+				FROM (SELECT e.event_id FROM events e
+					WHERE e.campaign_id = p_campaign AND e.taken < e.needed AND e.pos >= p_start
+					AND NOT EXISTS (SELECT 1 FROM passes p
+						WHERE p.campaign_id = p_campaign AND p.event_id = e.event_id AND p.scanner = p_scanner)
+					ORDER BY e.pos LIMIT 1 FOR UPDATE SKIP LOCKED) n
+				WHERE u.campaign_id = p_campaign AND u.event_id = n.event_id
+				RETURNING u.event_id, u.taken - 1, u.extra_round INTO v_event, v_taken, v_extra;
+		END IF;
+		IF v_event IS NULL THEN
+			UPDATE events u SET taken = u.taken + 1
+				FROM (SELECT e.event_id FROM events e
+					WHERE e.campaign_id = p_campaign AND e.taken < e.needed AND e.pos < p_start
+					AND NOT EXISTS (SELECT 1 FROM passes p
+						WHERE p.campaign_id = p_campaign AND p.event_id = e.event_id AND p.scanner = p_scanner)
+					ORDER BY e.pos LIMIT 1 FOR UPDATE SKIP LOCKED) n
+				WHERE u.campaign_id = p_campaign AND u.event_id = n.event_id
+				RETURNING u.event_id, u.taken - 1, u.extra_round INTO v_event, v_taken, v_extra;
+		END IF;
+		IF v_event IS NULL THEN
+			RETURN;
+		END IF;
+		INSERT INTO passes (campaign_id, event_id, scanner, round, state, assigned, updated)
+			VALUES (p_campaign, v_event, p_scanner,
+				CASE WHEN v_taken >= p_per_event THEN v_extra ELSE 1 END,
+				'assigned', clock_timestamp(), clock_timestamp())
+			RETURNING id INTO v_id;
+	END IF;
+	RETURN QUERY SELECT p.id, p.campaign_id, p.event_id, p.scanner, p.round, p.state, p.assigned,
+		p.updated, p.seconds, r.label, p.revisions
+		FROM passes p LEFT JOIN revisions r ON r.id = p.latest_revision WHERE p.id = v_id;
+END;
+$$;
