@@ -183,3 +183,45 @@ func sameReads(t *testing.T, a store.Store, aID int64, b store.Store, bID int64)
 		}
 	}
 }
+
+// TestMigrateBack copies a campaign worked on PostgreSQL into a fresh
+// SQLite file (a site taking a campaign offline) and checks that nothing
+// changed on the way.
+func TestMigrateBack(t *testing.T) {
+	ctx := context.Background()
+	pg, err := Open(ctx, pgtest.DSN(t))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer pg.Close()
+	lite, err := Open(ctx, filepath.Join(t.TempDir(), "offline.db"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer lite.Close()
+	srcID := scanned(t, pg, "summer")
+	d, err := pg.(store.Dumper).Dump(ctx, srcID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	dstID, err := lite.(store.Loader).Load(ctx, d)
+	if err != nil {
+		t.Fatal(err)
+	}
+	back, err := lite.(store.Dumper).Dump(ctx, dstID)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want, err := d.Checksums()
+	if err != nil {
+		t.Fatal(err)
+	}
+	got, err := back.Checksums()
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !reflect.DeepEqual(got, want) {
+		t.Errorf("checksums differ:\n got %v\nwant %v", got, want)
+	}
+	sameReads(t, pg, srcID, lite, dstID)
+}
