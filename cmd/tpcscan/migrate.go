@@ -15,7 +15,7 @@ import (
 func migrateCommand() command {
 	return command{
 		name:    "migrate",
-		summary: "copy campaigns from an SQLite file to a PostgreSQL server, verified",
+		summary: "copy campaigns from an SQLite file to a PostgreSQL server (or back), verified",
 		run:     runMigrate,
 	}
 }
@@ -30,14 +30,15 @@ func runMigrate(ctx context.Context, env *environ, args []string) error {
 	fs := newFlags(env, "migrate", "--from FILE.db --to postgres://USER@HOST/DB [--campaign NAME]...",
 		"Copies whole campaigns (events, passes with every revision, consensus labels and\n"+
 			"adjudications, resume states) from one store to another, normally from the\n"+
-			"SQLite file of a shift to the collaboration's PostgreSQL server, then reads both\n"+
-			"back and compares row counts and a SHA-256 checksum per table. A campaign that is\n"+
-			"already on the destination is verified, not copied again, so running migrate twice\n"+
-			"duplicates nothing. Each campaign is copied in one transaction.")
+			"SQLite file of a shift to the collaboration's PostgreSQL server (or back into a\n"+
+			"fresh SQLite file, to take a campaign offline), then reads both stores back and\n"+
+			"compares row counts and a SHA-256 checksum per table. A campaign already on the\n"+
+			"destination is verified, not copied again, so running migrate twice duplicates\n"+
+			"nothing. Each campaign is copied in one transaction.")
 	from := fs.String("from", "", "source store: an SQLite file (or a postgres:// URL)")
-	to := fs.String("to", "", "destination store: a postgres:// URL")
+	to := fs.String("to", "", "destination store: a postgres:// URL (or an SQLite file)")
 	var only migrateNames
-	fs.Var(&only, "campaign", "copy only this campaign (repeatable; default: all)")
+	fs.Var(&only, "campaign", "copy only the campaign of this `NAME` (repeatable; default: all)")
 	if err := fs.Parse(args); err != nil {
 		return err
 	}
@@ -66,7 +67,7 @@ func migrate(ctx context.Context, env *environ, src, dst store.Store, only []str
 	loader, ok := dst.(store.Loader)
 	dstDumper, ok2 := dst.(store.Dumper)
 	if !ok || !ok2 {
-		return errors.New("migrate: the destination store cannot import campaigns (use a postgres:// URL)")
+		return errors.New("migrate: the destination store cannot import campaigns")
 	}
 	cs, err := src.Campaigns(ctx)
 	if err != nil {
