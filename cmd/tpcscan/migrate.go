@@ -35,8 +35,8 @@ func runMigrate(ctx context.Context, env *environ, args []string) error {
 			"compares row counts and a SHA-256 checksum per table. A campaign already on the\n"+
 			"destination is verified, not copied again, so running migrate twice duplicates\n"+
 			"nothing. Each campaign is copied in one transaction.")
-	from := fs.String("from", "", "source store: an SQLite file (or a postgres:// URL)")
-	to := fs.String("to", "", "destination store: a postgres:// URL (or an SQLite file)")
+	from := fs.String("from", "", "source `STORE`: an SQLite file (or a postgres:// URL)")
+	to := fs.String("to", "", "destination `STORE`: a postgres:// URL (or an SQLite file)")
 	var only migrateNames
 	fs.Var(&only, "campaign", "copy only the campaign of this `NAME` (repeatable; default: all)")
 	if err := fs.Parse(args); err != nil {

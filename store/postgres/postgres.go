@@ -129,12 +129,6 @@ func migrations() ([]migration, error) {
 	return ms, nil
 }
 
-// SchemaVersion is the schema version this tpcscan writes.
-func SchemaVersion() int {
-	ms, _ := migrations()
-	return len(ms)
-}
-
 // migrate applies missing migrations in one transaction, under an advisory
 // lock so that servers starting together upgrade once.
 func (s *Store) migrate(ctx context.Context) error {
