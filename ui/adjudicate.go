@@ -562,7 +562,10 @@ func (a *Adjudicator) drawMarks(pen *overlayPen) {
 	if !ok || d.Event != a.shown {
 		return
 	}
-	for _, sm := range a.marksOf(d) {
+	// Boxes under tracks under vertices, so that no outline hides a point.
+	marks := a.marksOf(d)
+	slices.SortStableFunc(marks, func(x, y styledMark) int { return cmp.Compare(kindLayer(x.mark.Kind), kindLayer(y.mark.Kind)) })
+	for _, sm := range marks {
 		i := pen.v.det.PlaneIndex(sm.mark.Plane)
 		if i < 0 || len(sm.mark.Points) == 0 {
 			continue
@@ -588,6 +591,16 @@ func (a *Adjudicator) drawMarks(pen *overlayPen) {
 			}
 		}
 	}
+}
+
+func kindLayer(k scan.MarkKind) int {
+	switch k {
+	case scan.MarkBox:
+		return 0
+	case scan.MarkVertex:
+		return 2
+	}
+	return 1
 }
 
 // stampCell writes a glyph over the image in a style's colour (colour
@@ -1044,7 +1057,7 @@ func (a *Adjudicator) listView(w, h int) string {
 		}
 		var s string
 		if d.Decided != nil {
-			s = fmt.Sprintf("%s✓%-11s → %s", mark, trunc(scan.CleanText(d.Event), 11), a.className(d.Decided.Label.Class))
+			s = fmt.Sprintf("%s✓%-11s  → %s", mark, trunc(scan.CleanText(d.Event), 11), a.className(d.Decided.Label.Class))
 		} else {
 			s = fmt.Sprintf("%s %-11s %3.0f%%  %-9s %s", mark, trunc(scan.CleanText(d.Event), 11), 100*d.Share, a.voteSummary(&d), a.selSummary(&d))
 		}
@@ -1145,7 +1158,12 @@ func (a *Adjudicator) labelsView(w int) string {
 			add("   conf   " + a.choiceNames(sch.Confidence, []string{l.Confidence}))
 		}
 		if l.Comment != "" {
-			add("   note   “" + scan.CleanText(l.Comment) + "”")
+			for i, ln := range wrap("“"+scan.CleanText(l.Comment)+"”", max(w-10, 10)) {
+				if i == 3 {
+					break
+				}
+				add(fmt.Sprintf("   %-6s %s", map[bool]string{true: "note"}[i == 0], ln))
+			}
 		}
 		if n := len(l.Marks); n > 0 {
 			add(fmt.Sprintf("   marks  %s", markCounts(l.Marks)))
