@@ -193,7 +193,7 @@ func (s *Store) tx(ctx context.Context, fn func(pgx.Tx) error) error {
 // retry is tx without its deadline, for bulk work bounded by the caller.
 func (s *Store) retry(ctx context.Context, fn func(pgx.Tx) error) error {
 	for attempt := 1; ; attempt++ {
-		err, again := s.try(ctx, fn)
+		again, err := s.try(ctx, fn)
 		if err == nil || !again || attempt == maxAttempts {
 			return err
 		}
@@ -212,26 +212,26 @@ func (s *Store) retry(ctx context.Context, fn func(pgx.Tx) error) error {
 
 // try runs one attempt of a transaction; again reports whether a failure
 // left nothing committed and may be cured by running it again.
-func (s *Store) try(ctx context.Context, fn func(pgx.Tx) error) (err error, again bool) {
+func (s *Store) try(ctx context.Context, fn func(pgx.Tx) error) (again bool, err error) {
 	conn, err := s.pool.Acquire(ctx)
 	if err != nil {
-		return err, pgconn.SafeToRetry(err)
+		return pgconn.SafeToRetry(err), err
 	}
 	defer conn.Release()
 	tx, err := conn.Begin(ctx)
 	if err != nil {
-		return err, retryable(err) || conn.Conn().IsClosed()
+		return retryable(err) || conn.Conn().IsClosed(), err
 	}
 	if err := fn(tx); err != nil {
 		tx.Rollback(ctx)
 		// The transaction cannot have committed: retry if the conflict was
 		// transient or the connection died under it.
-		return err, retryable(err) || (conn.Conn().IsClosed() && ctx.Err() == nil)
+		return retryable(err) || (conn.Conn().IsClosed() && ctx.Err() == nil), err
 	}
 	if err := tx.Commit(ctx); err != nil {
-		return err, retryable(err)
+		return retryable(err), err
 	}
-	return nil, false
+	return false, nil
 }
 
 // retryable reports whether an error says the transaction was refused as
