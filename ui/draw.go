@@ -176,6 +176,7 @@ func (v *planes) render() []string {
 	}
 	copy(v.work.Cells, v.cache.Cells)
 	v.drawFrame()
+	v.drawLegend()
 	pen := &overlayPen{v: v, c: v.work}
 	if v.overlay != nil {
 		v.overlay(pen)
@@ -249,6 +250,34 @@ func (v *planes) drawFrame() {
 		}
 		c.Set(p.x-1, p.y+p.h, render.Cell{Rune: '└'})
 	}
+}
+
+// drawLegend writes the colour scale of the cursor's plane under the
+// panes, with its range in ADC.
+func (v *planes) drawLegend() {
+	rows := v.legendRows()
+	if rows == 0 {
+		return
+	}
+	y := v.h - rows
+	i := v.cur.Plane
+	lin := "linear"
+	if v.log {
+		lin = "log"
+	}
+	label := fmt.Sprintf(" %s charge (%s, %s, %s) ", v.det.Planes[i].Role, lin, reduceShort(v.reduce), v.scales[v.scaleIdx].Name)
+	c := v.work
+	c.Fill(0, y, v.w, rows, render.Cell{Rune: ' '})
+	n := c.Text(0, y, truncRunes(label, v.w/2), nil, nil, 0)
+	w := min(v.w-n-2, 72)
+	render.Legend(c, n, y, w, v.scales[v.scaleIdx], v.rangeOf(i), v.tier, 0)
+}
+
+func reduceShort(r render.Reduce) string {
+	if r == render.ReduceSum {
+		return "block sum"
+	}
+	return "block max"
 }
 
 func (v *planes) inkIf(on bool, k ink) color.Color {

@@ -186,12 +186,21 @@ func (v *planes) layout() {
 		if k == len(shown)-1 {
 			w = v.w - x
 		}
-		v.panes = append(v.panes, pane{plane: pl, x: x + 1, y: 1, w: w - 1, h: v.h - 2})
+		v.panes = append(v.panes, pane{plane: pl, x: x + 1, y: 1, w: w - 1, h: v.h - 2 - v.legendRows()})
 	}
 	// Every pane gets the same width so the planes' pixels match.
 	for i := range v.panes {
 		v.panes[i].w = each - 1
 	}
+}
+
+// legendRows is the height of the colour legend under the planes: a bar
+// and its ADC labels, when the window is tall enough to spare them.
+func (v *planes) legendRows() int {
+	if v.h >= 26 && v.w >= 60 {
+		return 2
+	}
+	return 0
 }
 
 // paneOf returns the pane showing plane i.
