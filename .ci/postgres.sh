@@ -84,9 +84,11 @@ tpcscan_pg_stop() {
 
 if [ -z "${TPCSCAN_TEST_POSTGRES:-}" ]; then
 	if tpcscan_pg_start; then
-		# Chain onto whatever EXIT trap the sourcing script already set.
-		tpcscan_pg_prev_trap=$(trap -p EXIT | sed -e "s/^trap -- '//" -e "s/' EXIT\$//")
-		trap "tpcscan_pg_stop; ${tpcscan_pg_prev_trap:-:}" EXIT
+		# Chain onto whatever EXIT trap the sourcing script already set
+		# (trap -p prints it shell-quoted, so eval gets it back verbatim).
+		tpcscan_pg_prev_trap=
+		eval "tpcscan_pg_prev_trap=$(trap -p EXIT | sed -e 's/^trap -- //' -e 's/ EXIT$//')"
+		trap 'tpcscan_pg_stop; eval "${tpcscan_pg_prev_trap:-:}"' EXIT
 	else
 		tpcscan_pg_log "could not start PostgreSQL; PostgreSQL tests will skip"
 		tpcscan_pg_stop
