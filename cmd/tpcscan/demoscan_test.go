@@ -226,3 +226,20 @@ func TestAgreeSpatial(t *testing.T) {
 		t.Errorf("spatial = %v", sp)
 	}
 }
+
+func FuzzParseSimScanners(f *testing.F) {
+	for _, s := range []string{"ana:0.95:0.9", "ana:0.95:0.9:30,ben:0.8:0.7", "a:1:1:1e-3", ":::", "x:NaN:0.5", ","} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		sc, err := parseSimScanners(s)
+		if err != nil {
+			return
+		}
+		for _, x := range sc {
+			if x.name == "" || !(x.eff >= 0 && x.eff <= 1) || !(x.acc >= 0 && x.acc <= 1) || !(x.sec > 0) {
+				t.Fatalf("accepted %q as %+v", s, x)
+			}
+		}
+	})
+}

@@ -33,6 +33,10 @@ type AgreementCIs struct {
 // are left out of that statistic's interval, and a statistic undefined
 // on the data has an undefined interval.
 func Bootstrap(ctx context.Context, t *Table, opt Options, b int, seed uint64, cl float64) (AgreementCIs, error) {
+	return bootstrap(ctx, t, opt, b, seed, cl, runtime.GOMAXPROCS(0))
+}
+
+func bootstrap(ctx context.Context, t *Table, opt Options, b int, seed uint64, cl float64, workers int) (AgreementCIs, error) {
 	if b < 1 {
 		return AgreementCIs{}, fmt.Errorf("bootstrap: need at least one resample, got %d", b)
 	}
@@ -44,7 +48,7 @@ func Bootstrap(ctx context.Context, t *Table, opt Options, b int, seed uint64, c
 	}
 	p := compress(t)
 	res := make([]Agreement, b)
-	workers := min(runtime.GOMAXPROCS(0), b)
+	workers = max(1, min(workers, b))
 	var wg sync.WaitGroup
 	next := make(chan int)
 	for range workers {

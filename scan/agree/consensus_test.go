@@ -199,6 +199,13 @@ func TestBootstrapDeterministic(t *testing.T) {
 	if !math.IsNaN(ci1.Fleiss.Low) {
 		t.Errorf("Fleiss interval %+v, want undefined", ci1.Fleiss)
 	}
+	// The same with one worker or five: resample i has its own generator.
+	for _, w := range []int{1, 5} {
+		ciw, _ := bootstrap(ctx, tab, Options{Weights: Linear}, 200, 99, 0.95, w)
+		if fmt.Sprint(ciw) != fmt.Sprint(ci1) {
+			t.Errorf("%d workers changed the intervals: %+v vs %+v", w, ciw, ci1)
+		}
+	}
 	ci3, _ := Bootstrap(ctx, tab, Options{}, 200, 100, 0.95)
 	if reflect.DeepEqual(ci1.Kappa, ci3.Kappa) {
 		t.Error("different seeds gave identical intervals")
