@@ -210,3 +210,38 @@ func checkPerEvent(t *testing.T, s *Store, id int64, k int) {
 		t.Errorf("%d passes count a different number of revisions than they have", bad)
 	}
 }
+
+// TestOneScannerManySessions: eight sessions of one scanner asking for
+// work at the same moment all get the same single open pass.
+func TestOneScannerManySessions(t *testing.T) {
+	t.Parallel()
+	s, _ := open(t)
+	ctx := context.Background()
+	id, err := s.CreateCampaign(ctx, testCampaign("twins", 2, false), testEvents(50))
+	if err != nil {
+		t.Fatal(err)
+	}
+	ids := make(chan int64, 8)
+	var wg sync.WaitGroup
+	for range 8 {
+		wg.Go(func() {
+			p, err := s.NextPass(ctx, id, "ana")
+			if err != nil {
+				t.Error(err)
+			}
+			ids <- p.ID
+		})
+	}
+	wg.Wait()
+	close(ids)
+	first := <-ids
+	for other := range ids {
+		if other != first {
+			t.Errorf("one scanner holds passes %d and %d at once", first, other)
+		}
+	}
+	ps, err := s.ScannerPasses(ctx, id, "ana")
+	if err != nil || len(ps) != 1 {
+		t.Errorf("ana has %d passes (%v), want 1", len(ps), err)
+	}
+}
