@@ -997,7 +997,13 @@ func (a *Adjudicator) titleLine() string {
 func (a *Adjudicator) disputeBody(bh int) []string {
 	sw := a.sideWidth()
 	listH := clampI(bh*2/5, 5, max(5, len(a.disputes)+2))
-	side := append(block(a.listView(sw-1, listH), sw-1, listH), block(a.labelsView(sw-1), sw-1, bh-listH)...)
+	labels, chosen := a.labelsView(sw - 1)
+	// Keep the chosen scanner's tags in view when the table is too long.
+	if lh := bh - listH; len(labels) > lh && chosen >= 0 {
+		from := min(max(0, chosen-2), len(labels)-lh)
+		labels = labels[from:]
+	}
+	side := append(block(a.listView(sw-1, listH), sw-1, listH), block(strings.Join(labels, "\n"), sw-1, bh-listH)...)
 	pl := a.planesLines(a.w-sw, bh)
 	out := make([]string, bh)
 	for r := range out {
@@ -1124,12 +1130,14 @@ func (a *Adjudicator) classShort(k string) string {
 }
 
 // labelsView is the side table of the chosen event: each scanner's tags,
-// the selection's output and any decision.
-func (a *Adjudicator) labelsView(w int) string {
+// the selection's output and any decision. It returns the lines and the
+// index of the chosen scanner's first line (−1 if none).
+func (a *Adjudicator) labelsView(w int) ([]string, int) {
 	d, ok := a.current()
 	if !ok {
-		return ""
+		return nil, -1
 	}
+	chosen := -1
 	sch := a.camp.Schema
 	var out []string
 	add := func(s string) { out = append(out, pad(s, w)) }
@@ -1145,6 +1153,7 @@ func (a *Adjudicator) labelsView(w int) string {
 		s := a.styleOf[v.Scanner]
 		head := fmt.Sprintf("%s %s", s.sample(), scan.CleanText(v.Scanner))
 		if k == a.row {
+			chosen = len(out)
 			out = append(out, a.st.Chosen.Render(pad("▸"+head, w)))
 		} else {
 			add(" " + head)
@@ -1179,7 +1188,7 @@ func (a *Adjudicator) labelsView(w int) string {
 	if a.note != "" {
 		out = append(out, "", a.st.Warn.Render(pad("note: "+a.note, w)))
 	}
-	return strings.Join(out, "\n")
+	return out, chosen
 }
 
 // markCounts says how many marks of each kind a label has.
@@ -1277,16 +1286,14 @@ func (a *Adjudicator) helpView() string {
 		{k.Marks, d.ZoomIn, d.ZoomOut, d.Fit, d.PanLeft, d.PanRight, d.PanEarlier, d.PanLater},
 		{d.NextPlane, d.PrevPlane, d.Enlarge, d.NextScale, d.LogScale, k.Page, k.Reload, k.Help, k.Quit},
 	}
-	return strings.Join([]string{
-		a.st.Heading.Render("Adjudication keys"),
-		"",
-		h.FullHelpView(groups),
-		"",
-		"Set the class directly: " + strings.Join(cls, " · "),
-		"",
-		"Accepting a scanner's label stores it whole (class, flags, confidence, marks) as the event's",
-		"consensus; setting a class keeps the marks of a scanner who gave that class. A note typed",
-		"with " + k.Note.Help().Key + " goes with the next decision. Decisions are stored with your name and the time;",
-		"the latest decision on an event wins.",
-	}, "\n")
+	text := "Accepting a scanner's label stores it whole (class, flags, confidence, marks) as the event's " +
+		"consensus; setting a class keeps the marks of a scanner who gave that class. A note typed with " +
+		k.Note.Help().Key + " goes with the next decision. Decisions are stored with your name and the time; " +
+		"the latest decision on an event wins."
+	w := max(a.w-2, 20)
+	lines := []string{a.st.Heading.Render("Adjudication keys"), "", h.FullHelpView(groups), ""}
+	lines = append(lines, wrap("Set the class directly: "+strings.Join(cls, " · "), w)...)
+	lines = append(lines, "")
+	lines = append(lines, wrap(text, w)...)
+	return strings.Join(lines, "\n")
 }

@@ -351,3 +351,28 @@ func TestAdjudicateResize(t *testing.T) {
 		t.Errorf("no too-small message at 60×15:\n%s", out)
 	}
 }
+
+// TestAdjudicateSmallWindow keeps the chosen scanner's tags in view when
+// the side table is longer than the window, and the help names the keys.
+func TestAdjudicateSmallWindow(t *testing.T) {
+	a, _, _ := startAdjudicator(t, 100, 24, render.TierMono)
+	adjKeys(t, a, "right", "right") // carol, the last block of the table
+	out := ansi.Strip(a.View())
+	checkFrameSize(t, a.View(), 100, 24)
+	for _, want := range []string{"▸┏━┓■ carol", "class  NC π0"} {
+		if !strings.Contains(out, want) {
+			t.Errorf("chosen scanner's %q not in view:\n%s", want, out)
+		}
+	}
+	adjKeys(t, a, "?")
+	out = ansi.Strip(a.View())
+	for _, want := range []string{"Adjudication keys", "accept label", "3 NC π0", "latest decision"} {
+		if !strings.Contains(out, want) {
+			t.Errorf("help lacks %q:\n%s", want, out)
+		}
+	}
+	adjKeys(t, a, "esc")
+	if a.showHelp {
+		t.Error("esc does not close the help")
+	}
+}
