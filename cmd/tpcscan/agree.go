@@ -364,11 +364,40 @@ func runAgree(ctx context.Context, env *environ, ls *labelSet, asJSON bool, a ag
 			out.Spatial = append(out.Spatial, spatialJSON{sp.A, sp.B, sp.Boxes, num(sp.MeanIoU), num(sp.MedianIoU),
 				sp.Vertices, num(sp.MeanVertexCm), num(sp.MedianCm)})
 		}
+		out.MedianSeconds = medianSeconds(ls.seconds)
 		return writeJSON(env.stdout, out)
 	}
 	printAgree(env.stdout, res, ci)
 	printSpatial(env.stdout, spatial)
+	if ms := medianSeconds(ls.seconds); len(ms) > 0 {
+		fmt.Fprintln(env.stdout)
+		tw := newTab(env.stdout)
+		fmt.Fprintln(tw, "scanner\tmedian seconds per event")
+		for _, r := range res.Raters {
+			if v, ok := ms[r]; ok {
+				fmt.Fprintf(tw, "%s\t%s\n", scan.CleanText(r), f1(float64(v)))
+			}
+		}
+		tw.Flush()
+	}
 	return nil
+}
+
+// medianSeconds is each rater's median time per rated item, where known.
+func medianSeconds(by map[string][]float64) map[string]num {
+	out := map[string]num{}
+	for r, v := range by {
+		if len(v) == 0 {
+			continue
+		}
+		s := slices.Sorted(slices.Values(v))
+		m := s[len(s)/2]
+		if len(s)%2 == 0 {
+			m = (s[len(s)/2-1] + s[len(s)/2]) / 2
+		}
+		out[r] = num(m)
+	}
+	return out
 }
 
 // spatialJSON is where two scanners' marks agree: box IoU per (event,
@@ -428,6 +457,7 @@ type agreeOut struct {
 	Bootstrap         *bootstrapJSON   `json:"bootstrap,omitempty"`
 	Intervals         map[string][]num `json:"intervals,omitempty"`
 	Spatial           []spatialJSON    `json:"spatial,omitempty"`
+	MedianSeconds     map[string]num   `json:"median_seconds_per_item,omitempty"`
 }
 
 type bootstrapJSON struct {

@@ -106,6 +106,16 @@ func TestAgreeCommandErrors(t *testing.T) {
 	}
 }
 
+func TestAgreeMedianSeconds(t *testing.T) {
+	// double_scan.csv times: ana 31…42 s (median (36+37)/2 = 36.5),
+	// ben 22…44 s in steps of 2 (median (32+34)/2 = 33).
+	m := runJSON(t, "agree", "--labels", labelsFixture("double_scan.csv"))
+	ms := m["median_seconds_per_item"].(map[string]any)
+	if ms["ana"] != 36.5 || ms["ben"] != 33.0 {
+		t.Errorf("median seconds = %v, want ana 36.5, ben 33", ms)
+	}
+}
+
 func TestEfficiencyCommandJSON(t *testing.T) {
 	// double_scan.csv: ana finds e1–e8 (8), ben e3–e10 (8), both e3–e8 (6)
 	// of 12 events. Hand arithmetic: Lincoln–Petersen 8·8/6 = 32/3;

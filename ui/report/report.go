@@ -10,6 +10,7 @@ import (
 	"fmt"
 	"html/template"
 	"io"
+	"maps"
 	"math"
 	"slices"
 	"time"
@@ -106,7 +107,7 @@ func consensusLabels(tab *agree.Table, stored []scan.Consensus) (map[string]stri
 				methods[c.Method] = true
 			}
 		}
-		return out, "stored: " + joinShort(slices.Sorted(mapKeys(methods)))
+		return out, "stored: " + joinShort(slices.Sorted(maps.Keys(methods)))
 	}
 	res := agree.MajorityVote(tab)
 	if len(tab.Raters) >= 3 {
@@ -120,16 +121,6 @@ func consensusLabels(tab *agree.Table, stored []scan.Consensus) (map[string]stri
 		}
 	}
 	return out, res.Method + " (computed, not stored)"
-}
-
-func mapKeys(m map[string]bool) func(func(string) bool) {
-	return func(yield func(string) bool) {
-		for k := range m {
-			if !yield(k) {
-				return
-			}
-		}
-	}
 }
 
 const kappaCaution = "Kappa depends on prevalence and on the raters' marginal rates: the same percent agreement gives a lower kappa for a rare class. Verbal agreement scales (\"moderate\", \"substantial\") are conventions, not tests."
@@ -361,7 +352,7 @@ func (r *Report) times(passes []scan.Pass) error {
 	if len(by) == 0 {
 		return nil
 	}
-	names := slices.Sorted(mapKeysF(by))
+	names := slices.Sorted(maps.Keys(by))
 	vals := make([][]float64, len(names))
 	var medians []string
 	for i, n := range names {
@@ -378,16 +369,6 @@ func (r *Report) times(passes []scan.Pass) error {
 		Definition: "Seconds a scanner spent on a submitted pass, summed over its revisions. Medians: " + joinShort(medians) + ".",
 		Method:     "Box: quartiles; line: median; whiskers: the furthest points within 1.5 × the interquartile range (Tukey 1977); points beyond are drawn singly."})
 	return nil
-}
-
-func mapKeysF(m map[string][]float64) func(func(string) bool) {
-	return func(yield func(string) bool) {
-		for k := range m {
-			if !yield(k) {
-				return
-			}
-		}
-	}
 }
 
 func fmt3(v float64) string {
