@@ -6,9 +6,12 @@ import (
 	"fmt"
 	"log/slog"
 	"net"
+	"os"
+	"os/signal"
 	"path/filepath"
 	"slices"
 	"strings"
+	"syscall"
 	"time"
 
 	tea "github.com/charmbracelet/bubbletea"
@@ -116,6 +119,8 @@ func runServe(ctx context.Context, env *environ, args []string) error {
 		return fmt.Errorf("listen on %s: %w", f.listen, err)
 	}
 	warnExposure(log, ln.Addr())
+	stopReload := reloadOnHangup(log, srv, f.scanners)
+	defer stopReload()
 	log.Info("serving", "addr", ln.Addr().String(), "campaign", c.Name, "dataset", ds.Dir(),
 		"scanners", len(roster.Scanners()), "max_sessions", f.maxSessions, "idle", f.idle)
 	return srv.Serve(ctx, ln)
@@ -193,6 +198,35 @@ func warnRoster(log *slog.Logger, r *serve.Roster, c scan.Campaign) {
 			log.Warn("scanner not on the campaign's roster: they can connect but get no events",
 				"scanner", s.Name, "campaign", c.Name, "line", s.Line)
 		}
+	}
+}
+
+// reloadOnHangup rereads the scanners file on SIGHUP (systemctl reload):
+// new logins follow the new file, open sessions go on, and a file with an
+// error is reported and ignored. The returned func stops listening.
+func reloadOnHangup(log *slog.Logger, srv *serve.Server, path string) func() {
+	hup := make(chan os.Signal, 1)
+	signal.Notify(hup, syscall.SIGHUP)
+	done := make(chan struct{})
+	go func() {
+		for {
+			select {
+			case <-done:
+				return
+			case <-hup:
+				r, err := serve.LoadRoster(path)
+				if err != nil {
+					log.Error("scanners file not reloaded; the previous one stays in force", "err", err)
+					continue
+				}
+				srv.SetRoster(r)
+				log.Info("scanners file reloaded", "path", path, "keys", len(r.Scanners()))
+			}
+		}
+	}()
+	return func() {
+		signal.Stop(hup)
+		close(done)
 	}
 }
 

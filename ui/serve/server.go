@@ -11,6 +11,7 @@ import (
 	"fmt"
 	"log/slog"
 	"net"
+	"strings"
 	"sync"
 	"sync/atomic"
 	"time"
@@ -68,9 +69,10 @@ type SessionEnd struct {
 
 // Server is a running SSH scanning station.
 type Server struct {
-	cfg Config
-	log *slog.Logger
-	ssh *ssh.Server
+	cfg    Config
+	log    *slog.Logger
+	ssh    *ssh.Server
+	roster atomic.Pointer[Roster] // swapped by SetRoster
 
 	mu      sync.Mutex
 	live    map[int64]*liveSession
@@ -127,6 +129,7 @@ func New(cfg Config) (*Server, error) {
 		cfg.Logger = slog.New(slog.DiscardHandler)
 	}
 	s := &Server{cfg: cfg, log: cfg.Logger, live: map[int64]*liveSession{}}
+	s.roster.Store(cfg.Roster)
 	srv, err := wish.NewServer(
 		func(srv *ssh.Server) error { srv.AddHostKey(cfg.HostKey); return nil },
 		wish.WithPublicKeyAuth(s.authorise),
@@ -157,8 +160,8 @@ func New(cfg Config) (*Server, error) {
 // requests (no tcpip-forward), no subsystems (no sftp), no exec, no agent
 // or X11 forwarding, and no password or keyboard-interactive logins.
 func (s *Server) lockDown(srv *ssh.Server) {
-	srv.ChannelHandlers = map[string]ssh.ChannelHandler{"session": s.sessionChannel}
-	srv.RequestHandlers = map[string]ssh.RequestHandler{}
+	srv.ChannelHandlers = map[string]ssh.ChannelHandler{"session": s.sessionChannel, "default": s.refuseChannel}
+	srv.RequestHandlers = map[string]ssh.RequestHandler{"default": s.refuseGlobal}
 	srv.SubsystemHandlers = map[string]ssh.SubsystemHandler{}
 	srv.LocalPortForwardingCallback = nil
 	srv.ReversePortForwardingCallback = nil
@@ -172,6 +175,27 @@ func (s *Server) lockDown(srv *ssh.Server) {
 	srv.ConnectionFailedCallback = func(c net.Conn, err error) {
 		s.log.Info("connection failed", "remote", c.RemoteAddr().String(), "err", err)
 	}
+}
+
+// refuseChannel rejects and logs any channel but a session (direct-tcpip
+// port forwarding, streamlocal, ...).
+func (s *Server) refuseChannel(_ *ssh.Server, conn *gossh.ServerConn, nc gossh.NewChannel, ctx ssh.Context) {
+	s.log.Warn("channel refused", "kind", nc.ChannelType(), "scanner", scannerOf(ctx).Name,
+		"remote", conn.RemoteAddr().String())
+	_ = nc.Reject(gossh.Prohibited, "only the scanning station is served here")
+}
+
+// refuseGlobal refuses global requests (tcpip-forward, ...); keepalives
+// are refused too, as OpenSSH servers do for unknown requests, which is
+// all a client needs for its keepalive to work.
+func (s *Server) refuseGlobal(ctx ssh.Context, _ *ssh.Server, req *gossh.Request) (bool, []byte) {
+	level := slog.LevelWarn
+	if strings.HasPrefix(req.Type, "keepalive@") {
+		level = slog.LevelDebug
+	}
+	s.log.Log(context.Background(), level, "request refused", "kind", req.Type, "scanner", scannerOf(ctx).Name,
+		"remote", ctx.RemoteAddr().String())
+	return false, nil
 }
 
 // refusedRequest says which session requests are refused before the SSH
@@ -274,6 +298,14 @@ func (s *Server) Shutdown(ctx context.Context) error {
 	}
 	s.log.Info("shut down")
 	return nil
+}
+
+// SetRoster replaces the scanners file for new logins (a reload after the
+// file changed). Sessions already open keep running.
+func (s *Server) SetRoster(r *Roster) {
+	if r != nil {
+		s.roster.Store(r)
+	}
 }
 
 // Sessions returns the number of running sessions.
@@ -380,7 +412,7 @@ type scannerKey struct{}
 // authorise is the public-key callback: known keys pass, others are
 // refused and logged with their fingerprint.
 func (s *Server) authorise(ctx ssh.Context, key ssh.PublicKey) bool {
-	sc, ok := s.cfg.Roster.Lookup(key)
+	sc, ok := s.roster.Load().Lookup(key)
 	if !ok {
 		s.log.Warn("unknown key refused", "fingerprint", gossh.FingerprintSHA256(key),
 			"type", key.Type(), "user", ctx.User(), "remote", ctx.RemoteAddr().String())

@@ -39,6 +39,7 @@ type fixture struct {
 	logs     *syncBuffer
 	stop     context.CancelFunc
 	served   chan error
+	srv      *Server
 }
 
 func newFixture(t *testing.T, tweak func(*Config)) *fixture {
@@ -84,6 +85,7 @@ func newFixture(t *testing.T, tweak func(*Config)) *fixture {
 	if err != nil {
 		t.Fatal(err)
 	}
+	f.srv = srv
 	ln, err := net.Listen("tcp", "127.0.0.1:0")
 	if err != nil {
 		t.Fatal(err)
@@ -239,6 +241,9 @@ func TestRefusals(t *testing.T) {
 			ln.Close()
 			t.Error("remote port forwarding accepted")
 		}
+		if !strings.Contains(f.logs.String(), "kind=tcpip-forward") {
+			t.Error("refused forwarding not logged")
+		}
 	})
 	t.Run("direct-tcpip", func(t *testing.T) {
 		conn, err := c.Dial("tcp", f.addr)
@@ -246,8 +251,11 @@ func TestRefusals(t *testing.T) {
 			conn.Close()
 			t.Fatal("local port forwarding accepted")
 		}
-		if !strings.Contains(err.Error(), "unsupported channel type") {
+		if !strings.Contains(err.Error(), "administratively prohibited") {
 			t.Errorf("err = %v", err)
+		}
+		if !strings.Contains(f.logs.String(), "kind=direct-tcpip") {
+			t.Error("refused channel not logged")
 		}
 	})
 	for _, kind := range []string{"auth-agent-req@openssh.com", "x11-req"} {
@@ -430,6 +438,25 @@ func TestControlCharactersNeverReachOtherScreens(t *testing.T) {
 		if strings.Contains(out, bad) {
 			t.Errorf("%q reached the coordinator's screen", bad)
 		}
+	}
+}
+
+func TestSetRosterTakesEffectForNewLogins(t *testing.T) {
+	f := newFixture(t, nil)
+	newcomer, text := newKey(t)
+	if _, _, err := f.tryDial("dee", gossh.PublicKeys(newcomer)); err == nil {
+		t.Fatal("a key not yet in the scanners file got in")
+	}
+	ro, err := ParseRoster(strings.NewReader("dee scanner "+text+"\n"), "crew")
+	if err != nil {
+		t.Fatal(err)
+	}
+	f.srv.SetRoster(ro)
+	if _, _, err := f.tryDial("dee", gossh.PublicKeys(newcomer)); err != nil {
+		t.Fatalf("after the reload: %v", err)
+	}
+	if _, _, err := f.tryDial("bo", gossh.PublicKeys(f.keys["bo"])); err == nil {
+		t.Error("a key removed from the scanners file still gets in")
 	}
 }
 
