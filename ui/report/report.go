@@ -265,7 +265,7 @@ func (r *Report) selection(in Input, cons map[string]string, tab *agree.Table) e
 		r.Notes = append(r.Notes, "Selection: "+err.Error())
 		return nil
 	}
-	r.Stats = append(r.Stats,
+	r.Stats = append(r.Stats, KV{"selection signal", cleanJoin(signal)},
 		KV{"selection efficiency", fmt.Sprintf("%s [%s, %s] (%d/%d)", fmt3(v.Efficiency.Value), fmt3(v.Efficiency.Low), fmt3(v.Efficiency.High), v.Efficiency.K, v.Efficiency.N)},
 		KV{"selection purity", fmt.Sprintf("%s [%s, %s] (%d/%d)", fmt3(v.Purity.Value), fmt3(v.Purity.Low), fmt3(v.Purity.High), v.Purity.K, v.Purity.N)})
 	pts := make([]CurvePoint, len(v.Curve))
@@ -436,3 +436,5 @@ func callMatrix(labels, calls map[string]string, order []string) (rows, cols []s
 	}
 	return rows, cols, m
 }
+
+func cleanJoin(s []string) string { return joinShort(cleanAll(s)) }
