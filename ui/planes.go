@@ -109,10 +109,12 @@ func newPlanes(tier render.Tier) *planes {
 	return &planes{tier: tier, px: px, py: py, scales: render.Scales()}
 }
 
-// setEvent shows a new event, keeping the window when the detector is the
-// same (scanners compare events at the same zoom) unless keep is false.
+// setEvent shows a new event. The window and cursor stay when the new
+// event covers the same wires and ticks as the last one (scanners compare
+// events at the same zoom); otherwise, or when keep is false, the planes
+// are shown whole with the cursor in the middle.
 func (v *planes) setEvent(p *prepared, keep bool) {
-	same := v.det != nil && len(v.det.Planes) == len(p.ev.Detector.Planes)
+	same := v.prep != nil && sameCoverage(v.prep, p)
 	v.prep, v.det = p, p.ev.Detector
 	n := len(v.det.Planes)
 	if len(v.seen) != n {
@@ -126,9 +128,25 @@ func (v *planes) setEvent(p *prepared, keep bool) {
 	v.focus = min(v.focus, n-1)
 	v.layout()
 	if !keep || !same || len(v.win.WPP) != n {
+		v.cur = point{}
 		v.fit()
 	}
 	v.clampCursor()
+}
+
+// sameCoverage reports whether two events' planes cover the same wires
+// and ticks.
+func sameCoverage(a, b *prepared) bool {
+	if len(a.ev.Planes) != len(b.ev.Planes) {
+		return false
+	}
+	for i, x := range a.ev.Planes {
+		y := b.ev.Planes[i]
+		if x.Wire0 != y.Wire0 || x.Tick0 != y.Tick0 || x.Wires != y.Wires || x.Ticks != y.Ticks {
+			return false
+		}
+	}
+	return true
 }
 
 // setSize lays the panes out in a w×h cell area.
@@ -225,6 +243,7 @@ func (v *planes) fit() {
 		v.win.WPP[i] = math.Max(float64(img.Wires), 1) / float64(pw*v.px)
 	}
 	if v.cur == (point{}) || v.cur.Plane >= n {
+		v.focus = min(v.focus, n-1)
 		img := v.prep.ev.Planes[v.focus]
 		v.cur = point{Plane: v.focus, Wire: float64(img.Wire0) + float64(img.Wires)/2, Tick: (v.prep.tick0 + v.prep.tick1) / 2}
 	}
