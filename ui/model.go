@@ -111,7 +111,7 @@ func New(opts Options) *Model {
 	}
 	m.src = opts.Source
 	if m.src == nil && opts.Dataset != nil {
-		m.src = DatasetSource{opts.Dataset}
+		m.src = DatasetSource{D: opts.Dataset}
 	}
 	r := opts.Renderer
 	if r == nil {
