@@ -246,7 +246,7 @@ func warnExposure(log *slog.Logger, addr net.Addr) {
 func stationFactory(st store.Store, ds *dataset.Dataset, campaignID int64) serve.Factory {
 	return func(ctx context.Context, s serve.Session) (serve.App, error) {
 		m := ui.New(ui.Options{
-			Dataset: ds, Store: st, CampaignID: campaignID,
+			Dataset: ds, Source: planesOnly{ds}, Store: st, CampaignID: campaignID,
 			Scanner: s.Scanner, Role: string(s.Role),
 			Tier: s.Tier, Renderer: s.Renderer, Keys: ui.DefaultKeyMap(),
 			Logger: s.Logger, Context: ctx,
@@ -257,4 +257,26 @@ func stationFactory(st store.Store, ds *dataset.Dataset, campaignID int64) serve
 			Options: []tea.ProgramOption{tea.WithMouseCellMotion()},
 		}, nil
 	}
+}
+
+// planesOnly serves a dataset's events without their pixel truth: the
+// station never draws it, and over SSH every session would keep its own
+// copy (a third of a demo event's memory).
+type planesOnly struct{ ds *dataset.Dataset }
+
+func (p planesOnly) EventIDs() []string {
+	evs := p.ds.Events()
+	ids := make([]string, len(evs))
+	for i, e := range evs {
+		ids[i] = e.ID
+	}
+	return ids
+}
+
+func (p planesOnly) Load(id string) (*scan.Event, error) {
+	ev, err := p.ds.Load(id)
+	if ev != nil {
+		ev.Truth = nil
+	}
+	return ev, err
 }

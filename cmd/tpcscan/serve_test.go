@@ -229,3 +229,30 @@ func TestServeStation(t *testing.T) {
 		t.Error("resumed screen does not show the drafted class")
 	}
 }
+
+func TestPlanesOnlyDropsPixelTruth(t *testing.T) {
+	dir := filepath.Join(t.TempDir(), "tarn")
+	if err := sim.WriteDataset(context.Background(), dir, sim.Options{Events: 1, Seed: 2, Size: "demo"}, nil); err != nil {
+		t.Fatal(err)
+	}
+	ds, err := dataset.Open(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	src := planesOnly{ds}
+	ids := src.EventIDs()
+	if len(ids) != 1 {
+		t.Fatalf("ids %v", ids)
+	}
+	full, err := ds.Load(ids[0])
+	if err != nil || len(full.Truth) == 0 {
+		t.Fatalf("the demo event should carry pixel truth (err %v)", err)
+	}
+	ev, err := src.Load(ids[0])
+	if err != nil {
+		t.Fatal(err)
+	}
+	if ev.Truth != nil || len(ev.Planes) != len(full.Planes) {
+		t.Errorf("served event: %d truth planes, %d planes (want 0 and %d)", len(ev.Truth), len(ev.Planes), len(full.Planes))
+	}
+}
