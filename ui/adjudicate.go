@@ -109,43 +109,81 @@ func findDisputes(passes []scan.Pass, events []scan.CampaignEvent, decided []sca
 			dec[c.EventID] = &decided[i]
 		}
 	}
-	votes := map[string][]vote{}
-	var order []string
-	for _, p := range passes {
-		if p.State != scan.PassSubmitted || p.Label.Class == "" {
-			continue
-		}
-		if _, ok := votes[p.EventID]; !ok {
-			order = append(order, p.EventID)
-		}
-		votes[p.EventID] = append(votes[p.EventID], vote{Scanner: p.Scanner, Label: p.Label})
-	}
+	// Group the votes by event on a sorted copy: no map per event.
 	var out []dispute
-	for _, id := range order {
-		d := dispute{Event: id, Votes: votes[id], Selection: sel[id], Decided: dec[id]}
-		slices.SortStableFunc(d.Votes, func(a, b vote) int { return cmp.Compare(a.Scanner, b.Scanner) })
-		counts := map[string]int{}
-		for _, v := range d.Votes {
-			counts[v.Label.Class]++
+	var counts []classCount
+	flush := func(id string, vs []vote) {
+		if len(vs) == 0 {
+			return
 		}
-		d.Share, d.Entropy = voteSpread(counts, len(d.Votes))
+		d := dispute{Event: id, Votes: vs, Selection: sel[id], Decided: dec[id]}
+		counts = countClasses(counts[:0], vs)
 		selDiffers := false
-		if s := d.Selection; s != nil && s.Selected && s.Class != "" && counts[s.Class] < len(d.Votes) {
+		if s := d.Selection; s != nil && s.Selected && s.Class != "" && countOf(counts, s.Class) < len(vs) {
 			selDiffers = true
 		}
 		if len(counts) > 1 || selDiffers || d.Decided != nil {
+			slices.SortStableFunc(d.Votes, func(a, b vote) int { return cmp.Compare(a.Scanner, b.Scanner) })
+			d.Share, d.Entropy = voteSpread(counts, len(vs))
 			out = append(out, d)
 		}
 	}
+	byID := func(a, b scan.Pass) int { return cmp.Compare(a.EventID, b.EventID) }
+	byEvent := passes // Store.Passes orders by event already
+	if !slices.IsSortedFunc(byEvent, byID) {
+		byEvent = slices.Clone(passes)
+		slices.SortStableFunc(byEvent, byID)
+	}
+	var cur string
+	var vs []vote
+	for _, p := range byEvent {
+		if p.State != scan.PassSubmitted || p.Label.Class == "" {
+			continue
+		}
+		if p.EventID != cur {
+			flush(cur, vs)
+			cur, vs = p.EventID, nil
+		}
+		vs = append(vs, vote{Scanner: p.Scanner, Label: p.Label})
+	}
+	flush(cur, vs)
 	sortDisputes(out)
 	return out
 }
 
+// classCount is how many votes a class got.
+type classCount struct {
+	class string
+	n     int
+}
+
+func countClasses(dst []classCount, vs []vote) []classCount {
+	for _, v := range vs {
+		i := slices.IndexFunc(dst, func(c classCount) bool { return c.class == v.Label.Class })
+		if i < 0 {
+			dst = append(dst, classCount{class: v.Label.Class})
+			i = len(dst) - 1
+		}
+		dst[i].n++
+	}
+	return dst
+}
+
+func countOf(cs []classCount, class string) int {
+	for _, c := range cs {
+		if c.class == class {
+			return c.n
+		}
+	}
+	return 0
+}
+
 // voteSpread returns the top class's share and the entropy (bits) of the
 // vote counts.
-func voteSpread(counts map[string]int, n int) (share, entropy float64) {
+func voteSpread(counts []classCount, n int) (share, entropy float64) {
 	top := 0
-	for _, k := range counts {
+	for _, c := range counts {
+		k := c.n
 		top = max(top, k)
 		p := float64(k) / float64(n)
 		entropy -= p * math.Log2(p)
@@ -182,16 +220,21 @@ type markStyle struct {
 
 // markStyles are assigned to scanners in name order; the selection has its
 // own. The glyphs are one cell wide in every terminal font we know.
-var markStyles = [...]markStyle{
-	{"thin", '─', '│', '┌', '┐', '└', '┘', '●', '·', color.RGBA{0xff, 0xd8, 0x4a, 0xff}},
-	{"double", '═', '║', '╔', '╗', '╚', '╝', '◆', 'o', color.RGBA{0x7c, 0xf0, 0xb0, 0xff}},
-	{"heavy", '━', '┃', '┏', '┓', '┗', '┛', '■', 'x', color.RGBA{0xff, 0x9c, 0xf5, 0xff}},
-	{"dashed", '┄', '┆', '╭', '╮', '╰', '╯', '▲', '+', color.RGBA{0x9e, 0xc9, 0xff, 0xff}},
-	{"ascii", '-', '|', '+', '+', '+', '+', '★', '~', color.RGBA{0xff, 0x6e, 0x6e, 0xff}},
-	{"dotted", '┈', '┊', '∙', '∙', '∙', '∙', '✖', ':', color.RGBA{0xe0, 0xe0, 0xe0, 0xff}},
+func markStyles() []markStyle {
+	return []markStyle{
+		{"thin", '─', '│', '┌', '┐', '└', '┘', '●', '·', color.RGBA{0xff, 0xd8, 0x4a, 0xff}},
+		{"double", '═', '║', '╔', '╗', '╚', '╝', '◆', 'o', color.RGBA{0x7c, 0xf0, 0xb0, 0xff}},
+		{"heavy", '━', '┃', '┏', '┓', '┗', '┛', '■', 'x', color.RGBA{0xff, 0x9c, 0xf5, 0xff}},
+		{"dashed", '┄', '┆', '╭', '╮', '╰', '╯', '▲', '+', color.RGBA{0x9e, 0xc9, 0xff, 0xff}},
+		{"ascii", '-', '|', '+', '+', '+', '+', '★', '~', color.RGBA{0xff, 0x6e, 0x6e, 0xff}},
+		{"dotted", '┈', '┊', '∙', '∙', '∙', '∙', '✖', ':', color.RGBA{0xe0, 0xe0, 0xe0, 0xff}},
+	}
 }
 
-var selectionStyle = markStyle{"selection", '╍', '╏', '▪', '▪', '▪', '▪', '▪', '▪', color.RGBA{0xff, 0xb0, 0x50, 0xff}}
+// selectionStyle draws the automated selection's box.
+func selectionStyle() markStyle {
+	return markStyle{"selection", '╍', '╏', '▪', '▪', '▪', '▪', '▪', '▪', color.RGBA{0xff, 0xb0, 0x50, 0xff}}
+}
 
 // sample is the style's legend sample: a box corner, edge and vertex.
 func (s markStyle) sample() string { return string([]rune{s.tl, s.h, s.tr, s.vertex}) }
@@ -380,8 +423,9 @@ func (a *Adjudicator) onStart(msg adjStartMsg) tea.Cmd {
 	}
 	a.camp, a.started, a.disputes = msg.camp, true, msg.disputes
 	a.styleOf = map[string]markStyle{}
+	styles := markStyles()
 	for i, s := range msg.scanners {
-		a.styleOf[s] = markStyles[i%len(markStyles)]
+		a.styleOf[s] = styles[i%len(styles)]
 	}
 	if err := a.checkHotkeys(); err != nil {
 		a.status = err.Error()
@@ -541,7 +585,7 @@ type styledMark struct {
 func (a *Adjudicator) marksOf(d *dispute) []styledMark {
 	var out, chosen []styledMark
 	if s := d.Selection; s != nil && s.Box != nil {
-		out = append(out, styledMark{mark: *s.Box, style: selectionStyle, who: "selection"})
+		out = append(out, styledMark{mark: *s.Box, style: selectionStyle(), who: "selection"})
 	}
 	for k, v := range d.Votes {
 		for _, mk := range v.Label.Marks {
@@ -1218,7 +1262,8 @@ func (a *Adjudicator) legendLine() string {
 		parts = append(parts, fmt.Sprintf("%s %s (track %c)", a.ink(s, s.sample()), scan.CleanText(v.Scanner), s.track))
 	}
 	if s := d.Selection; s != nil && s.Box != nil {
-		parts = append(parts, a.ink(selectionStyle, string([]rune{selectionStyle.tl, selectionStyle.h, selectionStyle.h}))+" selection box")
+		ss := selectionStyle()
+		parts = append(parts, a.ink(ss, string([]rune{ss.tl, ss.h, ss.h}))+" selection box")
 	}
 	parts = append(parts, "✚ zoom centre")
 	return pad(strings.Join(parts, "  "), a.w)

@@ -176,3 +176,48 @@ func TestDashboardNoStore(t *testing.T) {
 		t.Errorf("no error shown:\n%s", ansi.Strip(d.View()))
 	}
 }
+
+// bigCampaign is 100,000 events × 3 scanners with 5 classes, about one
+// vote in five off the first scanner's class (a deterministic pattern).
+func bigCampaign() NumbersInput {
+	classes := []string{"numu-cc", "nue-cc", "nc-pi0", "nc-other", "cosmic"}
+	in := NumbersInput{Campaign: scan.Campaign{Name: "big", PerEvent: 3, Schema: scan.DefaultSchema()}}
+	x := uint64(88172645463325252)
+	for i := range 100_000 {
+		ev := fmt.Sprintf("ev-%06d", i)
+		in.Events = append(in.Events, scan.CampaignEvent{EventID: ev, Selection: &scan.Selection{EventID: ev, Selected: i%3 == 0, Class: "numu-cc", Score: float64(i%100) / 100}})
+		truth := i % len(classes)
+		for _, who := range []string{"a", "b", "c"} {
+			x ^= x << 13
+			x ^= x >> 7
+			x ^= x << 17
+			c := truth
+			if x%5 == 0 {
+				c = int(x>>8) % len(classes)
+			}
+			in.Passes = append(in.Passes, scan.Pass{EventID: ev, Scanner: who, State: scan.PassSubmitted, Label: scan.Label{Class: classes[c]}, Seconds: 30})
+		}
+	}
+	return in
+}
+
+// BenchmarkComputeNumbers measures the numbers panel on a large campaign,
+// without and with the default bootstrap.
+func BenchmarkComputeNumbers(b *testing.B) {
+	in := bigCampaign()
+	for _, boot := range []int{-1, 200} {
+		b.Run(fmt.Sprintf("bootstrap=%d", max(boot, 0)), func(b *testing.B) {
+			for b.Loop() {
+				ComputeNumbers(context.Background(), in, NumbersOptions{Bootstrap: boot})
+			}
+		})
+	}
+}
+
+// BenchmarkFindDisputes measures building the adjudication list.
+func BenchmarkFindDisputes(b *testing.B) {
+	in := bigCampaign()
+	for b.Loop() {
+		findDisputes(in.Passes, in.Events, nil)
+	}
+}
