@@ -285,6 +285,7 @@ func agreeCommand() command {
 			weights := fs.String("weights", "none", "weighted kappa: none, linear or quadratic (needs an ordered scale)")
 			order := fs.String("order", "", "ordered scale `A,B,...`, lowest first; every level counts even if unused")
 			metric := fs.String("metric", "nominal", "Krippendorff's alpha metric: nominal, ordinal, interval or ratio (interval and ratio need numeric labels)")
+			field := fs.String("field", agree.FieldClass, "with --db, the label field: class, or confidence (ordinal in the schema's order)")
 			boot := fs.Int("bootstrap", 0, "bootstrap resamples for intervals (0 = none; 1000 is usual)")
 			seed := fs.Uint64("seed", 1, "bootstrap seed: the same seed gives the same intervals")
 			cl := fs.Float64("cl", 0.95, "confidence level of the bootstrap intervals")
@@ -308,12 +309,31 @@ func agreeCommand() command {
 			if *boot < 0 {
 				return usageError{"--bootstrap must be 0 or more"}
 			}
+			if *field != agree.FieldClass && src.db == "" {
+				return usageError{"--field needs --db (a labels CSV has one label column)"}
+			}
 			ls, err := src.load(ctx)
 			if err != nil {
 				return err
 			}
 			defer ls.Close()
-			return runAgree(ctx, env, ls, src.json, agreeArgs{agree.Options{Weights: w, Metric: m}, splitList(*order), *boot, *seed, *cl})
+			ord := splitList(*order)
+			if *field == agree.FieldConfidence {
+				if ls.ratings, err = agree.PassFieldRatings(ls.passes, *field); err != nil {
+					return err
+				}
+				if len(ls.ratings) == 0 {
+					return fmt.Errorf("campaign %q has no submitted confidence levels", scan.CleanText(ls.campaign.Name))
+				}
+				if len(ord) == 0 { // the schema declares the scale, lowest first
+					for _, c := range ls.campaign.Schema.Confidence {
+						ord = append(ord, c.Key)
+					}
+				}
+			} else if *field != agree.FieldClass {
+				return usageError{fmt.Sprintf("unknown --field %q (want class or confidence)", *field)}
+			}
+			return runAgree(ctx, env, ls, src.json, agreeArgs{agree.Options{Weights: w, Metric: m}, ord, *boot, *seed, *cl})
 		},
 	}
 }

@@ -243,3 +243,31 @@ func FuzzParseSimScanners(f *testing.F) {
 		}
 	})
 }
+
+// TestAgreeConfidenceField: demo-scan gives the highest confidence to a
+// right answer and the middle one to a wrong one; the confidence field is
+// ordinal on the schema's full declared scale (1, 2, 3, level 1 unused).
+func TestAgreeConfidenceField(t *testing.T) {
+	ctx := context.Background()
+	path, _, truth := demoCampaign(t, 40)
+	scanners, _ := parseSimScanners("ana:0.9:0.8,ben:0.8:0.7")
+	st, c, err := openCampaign(ctx, path, "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := simulateScans(ctx, st, c, truth, scanners, "cosmic", 4); err != nil {
+		t.Fatal(err)
+	}
+	st.Close()
+	m := runJSON(t, "agree", "--db", path, "--field", "confidence", "--weights", "quadratic", "--metric", "ordinal")
+	if cats := fmt.Sprint(m["categories"]); cats != "[1 2 3]" {
+		t.Errorf("categories %s, want the declared scale [1 2 3]", cats)
+	}
+	p := m["pairwise"].([]any)[0].(map[string]any)
+	if _, ok := p["weighted_kappa"].(float64); !ok {
+		t.Errorf("weighted_kappa = %v", p["weighted_kappa"])
+	}
+	if _, err := runForTest(t, "agree", "--labels", labelsFixture("double_scan.csv"), "--field", "confidence"); err == nil || !strings.Contains(err.Error(), "--field needs --db") {
+		t.Errorf("--field with --labels: err = %v", err)
+	}
+}

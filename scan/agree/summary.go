@@ -2,10 +2,18 @@ package agree
 
 import (
 	"cmp"
+	"fmt"
 	"math"
 	"slices"
 
 	"github.com/tpcscan/tpcscan/scan"
+)
+
+// Label fields that can be rated: the topology class (nominal) and the
+// scanner's confidence (ordinal, in the schema's order).
+const (
+	FieldClass      = "class"
+	FieldConfidence = "confidence"
 )
 
 // PassRatings turns a campaign's passes into ratings of the topology class:
@@ -15,16 +23,30 @@ import (
 // the last submitted revision of a reopened pass put it into Pass.Label and
 // State.
 func PassRatings(passes []scan.Pass) []Rating {
+	rs, _ := PassFieldRatings(passes, FieldClass)
+	return rs
+}
+
+// PassFieldRatings is PassRatings for a chosen label field.
+func PassFieldRatings(passes []scan.Pass, field string) ([]Rating, error) {
+	get := func(l scan.Label) string { return l.Class }
+	switch field {
+	case FieldClass:
+	case FieldConfidence:
+		get = func(l scan.Label) string { return l.Confidence }
+	default:
+		return nil, fmt.Errorf("unknown label field %q (want %s or %s)", field, FieldClass, FieldConfidence)
+	}
 	out := make([]Rating, 0, len(passes))
 	for _, p := range passes {
-		if p.State == scan.PassSubmitted && p.Label.Class != "" {
-			out = append(out, Rating{Item: p.EventID, Rater: p.Scanner, Label: p.Label.Class})
+		if v := get(p.Label); p.State == scan.PassSubmitted && v != "" {
+			out = append(out, Rating{Item: p.EventID, Rater: p.Scanner, Label: v})
 		}
 	}
 	slices.SortStableFunc(out, func(a, b Rating) int {
 		return cmp.Or(cmp.Compare(a.Rater, b.Rater), cmp.Compare(a.Item, b.Item))
 	})
-	return out
+	return out, nil
 }
 
 // PassLabels maps event → scanner → label for submitted passes (for
