@@ -365,9 +365,8 @@ func runAgree(ctx context.Context, env *environ, ls *labelSet, asJSON bool, a ag
 	}
 	var ci *agree.AgreementCIs
 	if a.boot > 0 {
-		bar := newProgress(env, "bootstrap", 1)
-		c, err := agree.Bootstrap(ctx, tab, a.opt, a.boot, a.seed, a.cl)
-		bar.Step(1)
+		bar := newProgress(env, "bootstrap", a.boot)
+		c, err := agree.BootstrapProgress(ctx, tab, a.opt, a.boot, a.seed, a.cl, func(int, int) { bar.Step(1) })
 		bar.Finish()
 		if err != nil {
 			return err

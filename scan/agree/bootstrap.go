@@ -33,10 +33,16 @@ type AgreementCIs struct {
 // are left out of that statistic's interval, and a statistic undefined
 // on the data has an undefined interval.
 func Bootstrap(ctx context.Context, t *Table, opt Options, b int, seed uint64, cl float64) (AgreementCIs, error) {
-	return bootstrap(ctx, t, opt, b, seed, cl, runtime.GOMAXPROCS(0))
+	return bootstrap(ctx, t, opt, b, seed, cl, runtime.GOMAXPROCS(0), nil)
 }
 
-func bootstrap(ctx context.Context, t *Table, opt Options, b int, seed uint64, cl float64, workers int) (AgreementCIs, error) {
+// BootstrapProgress is Bootstrap that reports progress(done, b) as
+// resamples are handed to the workers (from one goroutine).
+func BootstrapProgress(ctx context.Context, t *Table, opt Options, b int, seed uint64, cl float64, progress func(done, total int)) (AgreementCIs, error) {
+	return bootstrap(ctx, t, opt, b, seed, cl, runtime.GOMAXPROCS(0), progress)
+}
+
+func bootstrap(ctx context.Context, t *Table, opt Options, b int, seed uint64, cl float64, workers int, progress func(done, total int)) (AgreementCIs, error) {
 	if b < 1 {
 		return AgreementCIs{}, fmt.Errorf("bootstrap: need at least one resample, got %d", b)
 	}
@@ -67,6 +73,9 @@ feed:
 	for i := range b {
 		select {
 		case next <- i:
+			if progress != nil {
+				progress(i+1, b)
+			}
 		case <-ctx.Done():
 			err = ctx.Err()
 			break feed

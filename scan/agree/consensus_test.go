@@ -201,7 +201,7 @@ func TestBootstrapDeterministic(t *testing.T) {
 	}
 	// The same with one worker or five: resample i has its own generator.
 	for _, w := range []int{1, 5} {
-		ciw, _ := bootstrap(ctx, tab, Options{Weights: Linear}, 200, 99, 0.95, w)
+		ciw, _ := bootstrap(ctx, tab, Options{Weights: Linear}, 200, 99, 0.95, w, nil)
 		if fmt.Sprint(ciw) != fmt.Sprint(ci1) {
 			t.Errorf("%d workers changed the intervals: %+v vs %+v", w, ciw, ci1)
 		}
