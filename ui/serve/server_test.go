@@ -524,3 +524,18 @@ func TestShutdownTellsScannersAndSaves(t *testing.T) {
 		t.Errorf("%d passes, want 2", len(passes))
 	}
 }
+
+func TestFactoryErrorShownClean(t *testing.T) {
+	f := newFixture(t, func(c *Config) {
+		c.Factory = func(context.Context, Session) (App, error) {
+			return App{}, fmt.Errorf("open dataset \x1b]0;pwned\x07/data: no such file")
+		}
+	})
+	c, _ := f.dial("bo")
+	tm := openTerminal(t, c, "xterm", nil, 80, 24)
+	tm.expect("cannot start the scanning station: open dataset")
+	tm.expect("/data: no such file")
+	if out := tm.out.String(); strings.Contains(out, "\x1b]0;") {
+		t.Errorf("escape sequence reached the client: %q", out)
+	}
+}

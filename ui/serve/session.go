@@ -18,6 +18,7 @@ import (
 	gossh "golang.org/x/crypto/ssh"
 
 	"github.com/tpcscan/tpcscan/render"
+	"github.com/tpcscan/tpcscan/scan"
 )
 
 // Session is what a Factory knows about one SSH session: who is connected
@@ -122,7 +123,7 @@ func (s *Server) runSession(sess ssh.Session) {
 	}
 	if err != nil {
 		log.Error("session setup failed", "err", err)
-		fatal(sess, "cannot start the scanning station: "+err.Error())
+		fatal(sess, "cannot start the scanning station: "+scan.CleanText(err.Error()))
 		return
 	}
 	reason, err := s.runProgram(sess, l, app, info, log)
