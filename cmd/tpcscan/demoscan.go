@@ -59,7 +59,12 @@ func demoScanCommand() command {
 			if err != nil {
 				return err
 			}
-			n, err := simulateScans(ctx, st, c, truth, scanners, *absent, *seed)
+			bar := newProgress(env, "scanning", 0)
+			n, err := simulateScans(ctx, st, c, truth, scanners, *absent, *seed, func(done, total int) {
+				bar.total = total
+				bar.Step(1)
+			})
+			bar.Finish()
 			if err != nil {
 				return err
 			}
@@ -139,7 +144,9 @@ func datasetTruth(dir string) (map[string]string, error) {
 // simulateScans takes passes round-robin for each scanner until none has
 // work left and submits simulated labels; it returns the passes submitted.
 // Each answer depends only on (seed, scanner, event), not on the order.
-func simulateScans(ctx context.Context, st store.Store, c scan.Campaign, truth map[string]string, scanners []simScanner, absent string, seed uint64) (int, error) {
+// progress gets the passes done and the passes the campaign asks for at
+// the start (adaptive rounds may add more).
+func simulateScans(ctx context.Context, st store.Store, c scan.Campaign, truth map[string]string, scanners []simScanner, absent string, seed uint64, progress func(done, total int)) (int, error) {
 	classes, err := truthClasses(c.Schema, truth)
 	if err != nil {
 		return 0, err
@@ -188,6 +195,9 @@ func simulateScans(ctx context.Context, st store.Store, c scan.Campaign, truth m
 				return n, fmt.Errorf("submit %s's pass of event %s: %w", sc.name, p.EventID, err)
 			}
 			n++
+			if progress != nil {
+				progress(n, len(events)*min(c.PerEvent, len(scanners)))
+			}
 		}
 	}
 	return n, nil

@@ -62,7 +62,7 @@ func TestDemoScanRecovery(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	n, err := simulateScans(ctx, st, c, truth, scanners, "cosmic", 11)
+	n, err := simulateScans(ctx, st, c, truth, scanners, "cosmic", 11, nil)
 	st.Close()
 	if err != nil {
 		t.Fatal(err)
@@ -124,7 +124,7 @@ func TestDemoScanDeterministic(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		if _, err := simulateScans(ctx, st, c, truth, scanners, "cosmic", 11); err != nil {
+		if _, err := simulateScans(ctx, st, c, truth, scanners, "cosmic", 11, nil); err != nil {
 			t.Fatal(err)
 		}
 		st.Close()
@@ -163,7 +163,7 @@ func TestReportCommand(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := simulateScans(ctx, st, c, truth, scanners, "cosmic", 2); err != nil {
+	if _, err := simulateScans(ctx, st, c, truth, scanners, "cosmic", 2, nil); err != nil {
 		t.Fatal(err)
 	}
 	st.Close()
@@ -255,7 +255,7 @@ func TestAgreeConfidenceField(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	if _, err := simulateScans(ctx, st, c, truth, scanners, "cosmic", 4); err != nil {
+	if _, err := simulateScans(ctx, st, c, truth, scanners, "cosmic", 4, nil); err != nil {
 		t.Fatal(err)
 	}
 	st.Close()
