@@ -256,3 +256,50 @@ func TestPlanesOnlyDropsPixelTruth(t *testing.T) {
 		t.Errorf("served event: %d truth planes, %d planes (want 0 and %d)", len(ev.Truth), len(ev.Planes), len(full.Planes))
 	}
 }
+
+// TestServeStationColours checks the real station's output for the colour
+// tier each client announces, whatever the server's own environment says.
+// Source: ECMA-48 / ITU-T T.416 SGR 38;5;n / 48;5;n select from the 256-colour
+// palette, 38;2;r;g;b / 48;2;r;g;b direct colour; 30–37, 40–47, 90–97 and
+// 100–107 are the 16 colours.
+func TestServeStationColours(t *testing.T) {
+	t.Setenv("COLORTERM", "truecolor") // the server's, not the clients'
+	s := startStation(t, "ana", "ben", "cy")
+	tests := []struct {
+		who, term string
+		env       map[string]string
+		want      []string
+		refuse    []string
+	}{
+		{"ana", "xterm-256color", nil, []string{"8;5;"}, []string{"38;2;", "48;2;"}},
+		{"ben", "xterm", nil, []string{"\x1b["}, []string{"38;5;", "48;5;", "38;2;", "48;2;"}},
+		{"cy", "xterm", map[string]string{"COLORTERM": "truecolor"}, []string{"8;2;"}, nil},
+	}
+	for _, tc := range tests {
+		t.Run(tc.who+" "+tc.term, func(t *testing.T) {
+			c, _, err := servetest.Dial(s.addr, s.hostKey, tc.who, serveWait, gossh.PublicKeys(s.keys[tc.who]))
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer c.Close()
+			tm, err := servetest.Open(c, tc.term, tc.env, 120, 40)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if err := tm.Out.WaitForText("ind1 wire ", serveWait); err != nil {
+				t.Fatal(err)
+			}
+			out := tm.Out.String()
+			for _, w := range tc.want {
+				if !strings.Contains(out, w) {
+					t.Errorf("no %q in the output", w)
+				}
+			}
+			for _, r := range tc.refuse {
+				if strings.Contains(out, r) {
+					t.Errorf("%q in the output", r)
+				}
+			}
+		})
+	}
+}
