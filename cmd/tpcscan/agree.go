@@ -524,22 +524,18 @@ func printAgree(w io.Writer, res agree.Agreement, ci *agree.AgreementCIs) {
 		}
 		return "  " + ci3(c.Low, c.High)
 	}
-	var zero agree.CI
+	var pc, fc, ac agree.CI
 	fmt.Fprintf(w, "%d events, %d scanners, %d categories\n", res.Items, len(res.Raters), len(res.Categories))
 	if ci != nil {
 		fmt.Fprintf(w, "intervals: %.0f%% percentile bootstrap, %d resamples of the events\n", 100*ci.CL, ci.Resamples)
-		zero = ci.PercentAgreement
+		pc, fc, ac = ci.PercentAgreement, ci.Fleiss, ci.Alpha
 	}
 	fmt.Fprintln(w)
 	tw := newTab(w)
-	fmt.Fprintf(tw, "percent agreement\t%s%s\n", f3(res.PercentAgreement), pick(zero))
+	fmt.Fprintf(tw, "percent agreement\t%s%s\n", f3(res.PercentAgreement), pick(pc))
 	fleissNote := ""
 	if math.IsNaN(res.Fleiss) {
 		fleissNote = "  (needs the same number of labels on every event)"
-	}
-	var fc, ac agree.CI
-	if ci != nil {
-		fc, ac = ci.Fleiss, ci.Alpha
 	}
 	fmt.Fprintf(tw, "Fleiss' kappa\t%s%s%s\n", f3(res.Fleiss), pick(fc), fleissNote)
 	fmt.Fprintf(tw, "Krippendorff's alpha (%s)\t%s%s\n", res.Metric, f3(res.Alpha), pick(ac))
