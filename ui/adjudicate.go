@@ -22,6 +22,7 @@ import (
 	"github.com/tpcscan/tpcscan/render"
 	"github.com/tpcscan/tpcscan/scan"
 	"github.com/tpcscan/tpcscan/scan/dataset"
+	"github.com/tpcscan/tpcscan/scan/detector"
 	"github.com/tpcscan/tpcscan/store"
 )
 
@@ -54,7 +55,8 @@ type AdjudicateOptions struct {
 // set the class directly; display keys come from KeyMap.
 type AdjudicateKeyMap struct {
 	Up, Down, PrevLabel, NextLabel key.Binding
-	Accept, Note, Marks, Page      key.Binding
+	Accept, Merge, Note, Marks     key.Binding
+	Page                           key.Binding
 	Reload, Help, Cancel, Quit     key.Binding
 }
 
@@ -66,6 +68,7 @@ func DefaultAdjudicateKeyMap() AdjudicateKeyMap {
 		PrevLabel: bind("previous label", "left", "h"),
 		NextLabel: bind("next label", "right", "l"),
 		Accept:    bind("accept label", "enter", "a"),
+		Merge:     bind("merge labels of that class", "g"),
 		Note:      bind("note", "n"),
 		Marks:     bind("frame marks", "m"),
 		Page:      bind("numbers", "s"),
@@ -460,7 +463,7 @@ func (a *Adjudicator) checkHotkeys() error {
 }
 
 func (k *AdjudicateKeyMap) bindings() []*key.Binding {
-	return []*key.Binding{&k.Up, &k.Down, &k.PrevLabel, &k.NextLabel, &k.Accept, &k.Note, &k.Marks, &k.Page,
+	return []*key.Binding{&k.Up, &k.Down, &k.PrevLabel, &k.NextLabel, &k.Accept, &k.Merge, &k.Note, &k.Marks, &k.Page,
 		&k.Reload, &k.Help, &k.Cancel, &k.Quit}
 }
 
@@ -780,6 +783,8 @@ func (a *Adjudicator) disputeKey(msg tea.KeyMsg) tea.Cmd {
 		a.row = (a.row + 1) % len(d.Votes)
 	case key.Matches(msg, k.Accept):
 		return a.accept(d)
+	case key.Matches(msg, k.Merge):
+		return a.merge(d)
 	case key.Matches(msg, k.Note):
 		a.noting = true
 		a.input.SetValue(a.note)
@@ -878,6 +883,119 @@ func (a *Adjudicator) accept(d *dispute) tea.Cmd {
 	l := cloneLabel(v.Label)
 	l.Comment = joinNote("accepted from "+v.Scanner, a.note)
 	return a.decide(d.Event, l)
+}
+
+// merge stores the chosen scanner's class with the labels of every
+// scanner who gave that class combined (mergeLabels).
+func (a *Adjudicator) merge(d *dispute) tea.Cmd {
+	if a.row >= len(d.Votes) {
+		return nil
+	}
+	chosen := d.Votes[a.row]
+	var same []scan.Label
+	var who []string
+	for _, v := range d.Votes {
+		if v.Label.Class == chosen.Label.Class {
+			same = append(same, v.Label)
+			who = append(who, v.Scanner)
+		}
+	}
+	l := mergeLabels(a.pv.det, chosen.Label, same)
+	l.Comment = joinNote("merged from "+strings.Join(who, ", "), a.note)
+	return a.decide(d.Event, l)
+}
+
+// mergeLabels combines labels of one class: per plane the mean of their
+// vertex marks and the box enclosing their boxes (each at the coarsest
+// precision among them), the union of their flags, and the chosen label's
+// class, confidence and tracks. With a detector, the merged vertices are
+// triangulated again.
+func mergeLabels(det *detector.Detector, chosen scan.Label, same []scan.Label) scan.Label {
+	out := scan.Label{Class: chosen.Class, Confidence: chosen.Confidence}
+	type acc struct {
+		n          int
+		wire, tick float64
+		prec       scan.Precision
+		lo, hi     detector.PlanePoint
+		boxes      int
+		boxPrec    scan.Precision
+	}
+	per := map[detector.Role]*acc{}
+	var roles []detector.Role
+	get := func(r detector.Role) *acc {
+		if per[r] == nil {
+			per[r] = &acc{lo: detector.PlanePoint{Wire: math.Inf(1), Tick: math.Inf(1)}, hi: detector.PlanePoint{Wire: math.Inf(-1), Tick: math.Inf(-1)}}
+			roles = append(roles, r)
+		}
+		return per[r]
+	}
+	coarser := func(p, q scan.Precision) scan.Precision {
+		return scan.Precision{Wires: math.Max(p.Wires, q.Wires), Ticks: math.Max(p.Ticks, q.Ticks)}
+	}
+	for _, l := range same {
+		for _, f := range l.Flags {
+			if !slices.Contains(out.Flags, f) {
+				out.Flags = append(out.Flags, f)
+			}
+		}
+		for _, mk := range l.Marks {
+			switch {
+			case mk.Kind == scan.MarkVertex && len(mk.Points) == 1:
+				c := get(mk.Plane)
+				c.n++
+				c.wire += mk.Points[0].Wire
+				c.tick += mk.Points[0].Tick
+				c.prec = coarser(c.prec, mk.Precision)
+			case mk.Kind == scan.MarkBox && len(mk.Points) >= 2:
+				c := get(mk.Plane)
+				c.boxes++
+				for _, p := range mk.Points {
+					c.lo = detector.PlanePoint{Wire: math.Min(c.lo.Wire, p.Wire), Tick: math.Min(c.lo.Tick, p.Tick)}
+					c.hi = detector.PlanePoint{Wire: math.Max(c.hi.Wire, p.Wire), Tick: math.Max(c.hi.Tick, p.Tick)}
+				}
+				c.boxPrec = coarser(c.boxPrec, mk.Precision)
+			}
+		}
+	}
+	for _, r := range roles {
+		c := per[r]
+		if c.n > 0 {
+			out.Marks = append(out.Marks, scan.Mark{Kind: scan.MarkVertex, Plane: r, Precision: c.prec,
+				Points: []detector.PlanePoint{{Wire: c.wire / float64(c.n), Tick: c.tick / float64(c.n)}}})
+		}
+		if c.boxes > 0 {
+			out.Marks = append(out.Marks, scan.Mark{Kind: scan.MarkBox, Plane: r, Precision: c.boxPrec, Points: []detector.PlanePoint{c.lo, c.hi}})
+		}
+	}
+	for _, mk := range chosen.Marks {
+		if mk.Kind == scan.MarkTrack {
+			out.Marks = append(out.Marks, mk)
+		}
+	}
+	out.Vertex3D = triangulate(det, out.Marks)
+	return out
+}
+
+// triangulate finds the 3-D vertex from vertex marks on two planes.
+func triangulate(det *detector.Detector, marks []scan.Mark) *detector.Point {
+	if det == nil {
+		return nil
+	}
+	var vs []scan.Mark
+	for _, mk := range marks {
+		if mk.Kind == scan.MarkVertex && len(mk.Points) == 1 && det.PlaneIndex(mk.Plane) >= 0 {
+			vs = append(vs, mk)
+		}
+	}
+	for i := range vs {
+		for j := i + 1; j < len(vs); j++ {
+			a, b := vs[i].Points[0], vs[j].Points[0]
+			if p, err := det.Triangulate(det.PlaneIndex(vs[i].Plane), a.Wire, det.PlaneIndex(vs[j].Plane), b.Wire, (a.Tick+b.Tick)/2); err == nil {
+				return &p
+			}
+		}
+	}
+	return nil
 }
 
 // setClass stores a class chosen by the coordinator. The marks, flags and
@@ -1327,14 +1445,15 @@ func (a *Adjudicator) helpView() string {
 	h := a.help
 	h.ShowAll = true
 	groups := [][]key.Binding{
-		{k.Up, k.Down, k.PrevLabel, k.NextLabel, k.Accept, k.Note, k.Cancel},
+		{k.Up, k.Down, k.PrevLabel, k.NextLabel, k.Accept, k.Merge, k.Note, k.Cancel},
 		{k.Marks, d.ZoomIn, d.ZoomOut, d.Fit, d.PanLeft, d.PanRight, d.PanEarlier, d.PanLater},
 		{d.NextPlane, d.PrevPlane, d.Enlarge, d.NextScale, d.LogScale, k.Page, k.Reload, k.Help, k.Quit},
 	}
 	text := "Accepting a scanner's label stores it whole (class, flags, confidence, marks) as the event's " +
-		"consensus; setting a class keeps the marks of a scanner who gave that class. A note typed with " +
-		k.Note.Help().Key + " goes with the next decision. Decisions are stored with your name and the time; " +
-		"the latest decision on an event wins."
+		"consensus; setting a class keeps the marks of a scanner who gave that class. Merging takes the chosen " +
+		"scanner's class and combines the labels of everyone who gave it: the mean vertex on each plane, the box " +
+		"enclosing their boxes, all their flags, the chosen scanner's tracks. A note typed with " +
+		k.Note.Help().Key + " goes with the next decision, stored with your name and the time; the latest decision wins."
 	w := max(a.w-2, 20)
 	lines := []string{a.st.Heading.Render("Adjudication keys"), "", h.FullHelpView(groups), ""}
 	lines = append(lines, wrap("Set the class directly: "+strings.Join(cls, " · "), w)...)

@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"errors"
+	"math"
 	"path/filepath"
 	"reflect"
 	"slices"
@@ -366,7 +367,7 @@ func TestAdjudicateSmallWindow(t *testing.T) {
 	}
 	adjKeys(t, a, "?")
 	out = ansi.Strip(a.View())
-	for _, want := range []string{"Adjudication keys", "accept label", "3 NC π0", "latest decision"} {
+	for _, want := range []string{"Adjudication keys", "accept label", "merge labels", "3 NC π0", "Merging takes"} {
 		if !strings.Contains(out, want) {
 			t.Errorf("help lacks %q:\n%s", want, out)
 		}
@@ -374,5 +375,53 @@ func TestAdjudicateSmallWindow(t *testing.T) {
 	adjKeys(t, a, "esc")
 	if a.showHelp {
 		t.Error("esc does not close the help")
+	}
+}
+
+// TestAdjudicateMerge merges the two νμ CC labels of syn-002 (alice's
+// marks 12 wires below bob's): mean vertices, the box enclosing both
+// boxes, the union of flags, a triangulated vertex (hand arithmetic on
+// adjMarks).
+func TestAdjudicateMerge(t *testing.T) {
+	a, st, id := startAdjudicator(t, 120, 40, render.TierMono)
+	adjKeys(t, a, "down")
+	if d, _ := a.current(); d.Event != "syn-002" || d.Votes[a.row].Scanner != "alice" {
+		t.Fatalf("at %s/%s, want syn-002/alice", d.Event, d.Votes[a.row].Scanner)
+	}
+	adjKeys(t, a, "g")
+	cs, err := st.Consensus(context.Background(), id, MethodAdjudication)
+	if err != nil || len(cs) != 1 {
+		t.Fatalf("stored %v (%v), want one decision", cs, err)
+	}
+	l := cs[0].Label
+	if cs[0].EventID != "syn-002" || l.Class != "numu-cc" || l.Comment != "merged from alice, bob" {
+		t.Errorf("stored %s %q %q, want syn-002 numu-cc merged from alice, bob", cs[0].EventID, l.Class, l.Comment)
+	}
+	if !slices.Equal(l.Flags, []string{"overlapping-cosmic"}) || l.Vertex3D == nil {
+		t.Errorf("flags %v, vertex %v; want bob's flag and a triangulated vertex", l.Flags, l.Vertex3D)
+	}
+	det := a.pv.det
+	wColl, tColl := det.Project(2, synthVertex)
+	for _, mk := range l.Marks {
+		switch {
+		case mk.Kind == scan.MarkVertex && mk.Plane == "coll":
+			if got := mk.Points[0]; math.Abs(got.Wire-(wColl-6)) > 1e-9 || math.Abs(got.Tick-tColl) > 1e-9 {
+				t.Errorf("coll vertex %+v, want wire %g (mean of −12 and 0 offsets), tick %g", got, wColl-6, tColl)
+			}
+		case mk.Kind == scan.MarkBox:
+			lo, hi := mk.Points[0], mk.Points[1]
+			// alice: wires −20…−4, ticks −88…−8; bob: wires −8…8, ticks −40…40.
+			want := [4]float64{wColl - 20, tColl - 88, wColl + 8, tColl + 40}
+			got := [4]float64{lo.Wire, lo.Tick, hi.Wire, hi.Tick}
+			for i := range got {
+				if math.Abs(got[i]-want[i]) > 1e-9 {
+					t.Errorf("merged box %v, want %v", got, want)
+					break
+				}
+			}
+		}
+	}
+	if n := len(l.Marks); n != 3 {
+		t.Errorf("%d merged marks, want 2 vertices and 1 box", n)
 	}
 }
