@@ -408,6 +408,17 @@ func (p *numbersPane) lines(w int) []string {
 		add("  %-24s %6s %s", "percent agreement", num3(a.PercentAgreement), ci(func(c *agree.AgreementCIs) agree.CI { return c.PercentAgreement }))
 		add("  %-24s %6s %s", "Fleiss' κ", num3(a.Fleiss), ci(func(c *agree.AgreementCIs) agree.CI { return c.Fleiss }))
 		add("  %-24s %6s %s", "Krippendorff's α", num3(a.Alpha), ci(func(c *agree.AgreementCIs) agree.CI { return c.Alpha }))
+		var per []string
+		for i, c := range a.Categories {
+			if i < len(a.PerCategory) {
+				per = append(per, fmt.Sprintf("%s %s", scan.CleanText(c), num2(a.PerCategory[i])))
+			}
+		}
+		if len(per) > 0 {
+			for i, ln := range wrap("specific agreement per class: "+strings.Join(per, " · "), max(w-4, 20)) {
+				add("  %s%s", strings.Repeat(" ", 2*min(i, 1)), ln)
+			}
+		}
 		add("  %-24s %6s %6s %7s  %s", "pair", "events", "agree", "Cohen κ", pct+" interval")
 		for i, pr := range a.Pairs {
 			civ := ""
@@ -487,6 +498,13 @@ func num3(v float64) string {
 		return "undef"
 	}
 	return fmt.Sprintf("%.3f", v)
+}
+
+func num2(v float64) string {
+	if math.IsNaN(v) || math.IsInf(v, 0) {
+		return "undef"
+	}
+	return fmt.Sprintf("%.2f", v)
 }
 
 func num1(v float64) string {
