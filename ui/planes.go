@@ -352,6 +352,7 @@ func (v *planes) panStep() (cols, rows int) {
 func (v *planes) zoom(f float64) {
 	i := v.cur.Plane
 	oldT, oldW := v.win.TPP, v.win.WPP[i]
+	centres := v.centres()
 	v.win.TPP *= f
 	for k := range v.win.WPP {
 		v.win.WPP[k] *= f
@@ -359,19 +360,28 @@ func (v *planes) zoom(f float64) {
 	v.clampZoom()
 	v.win.Tick0 = v.cur.Tick - (v.cur.Tick-v.win.Tick0)*v.win.TPP/oldT
 	v.win.Wire0[i] = v.cur.Wire - (v.cur.Wire-v.win.Wire0[i])*v.win.WPP[i]/oldW
-	v.centreOthers()
+	v.centreOthers(centres)
 }
 
-// centreOthers centres every other plane on the wire range that can see
-// the cursor's wire (or on the crossing with a wire seen on a second plane).
-func (v *planes) centreOthers() {
+// centres returns the wire in the middle of every plane's view.
+func (v *planes) centres() []float64 {
+	c := make([]float64, len(v.win.WPP))
+	for k := range c {
+		c[k] = v.centre(k)
+	}
+	return c
+}
+
+// centreOthers centres every other plane, from the centres it had, on the
+// wires that can see the cursor's wire (see linkedWire).
+func (v *planes) centreOthers(centres []float64) {
 	i := v.cur.Plane
 	pw, _ := v.paneSize()
 	for k := range v.win.WPP {
 		if k == i {
 			continue
 		}
-		c, ok := v.linkedWire(k)
+		c, ok := v.linkedWireFrom(k, centres[k])
 		if !ok {
 			continue
 		}
@@ -380,9 +390,15 @@ func (v *planes) centreOthers() {
 }
 
 // linkedWire is where plane k should look: the wire predicted from the
-// cursor and a wire seen on a third plane, else the middle of the range of
-// wires corresponding to the cursor's wire.
+// cursor and a wire seen on a third plane; else the centre of plane k's
+// view moved just inside the range of wires that can see the cursor's
+// wire (that range spans the whole detector height, so its middle alone
+// would often miss a small interaction the view already shows).
 func (v *planes) linkedWire(k int) (float64, bool) {
+	return v.linkedWireFrom(k, v.centre(k))
+}
+
+func (v *planes) linkedWireFrom(k int, centre float64) (float64, bool) {
 	if w, ok := v.predicted(k); ok {
 		return w, true
 	}
@@ -390,7 +406,13 @@ func (v *planes) linkedWire(k int) (float64, bool) {
 	if !ok {
 		return 0, false
 	}
-	return (r.Lo + r.Hi) / 2, true
+	return clamp(centre, r.Lo, r.Hi), true
+}
+
+// centre is the wire in the middle of plane k's view.
+func (v *planes) centre(k int) float64 {
+	pw, _ := v.paneSize()
+	return v.win.Wire0[k] + float64(pw)*v.cellWires(k)/2
 }
 
 // predicted returns the wire on plane k where the cursor's wire crosses
@@ -421,6 +443,7 @@ func (v *planes) zoomBox(a point) {
 	w0, w1 = w0-v.cellWires(i)/2, w1+v.cellWires(i)/2
 	t0, t1 = t0-v.cellTicks()/2, t1+v.cellTicks()/2
 	f := (w1 - w0) / float64(pw*v.px) / v.win.WPP[i]
+	centres := v.centres()
 	v.win.TPP = (t1 - t0) / float64(ph*v.py)
 	for k := range v.win.WPP {
 		v.win.WPP[k] *= f
@@ -429,7 +452,7 @@ func (v *planes) zoomBox(a point) {
 	v.win.Wire0[i] = (w0+w1)/2 - float64(pw)*v.cellWires(i)/2
 	v.win.Tick0 = (t0+t1)/2 - float64(ph)*v.cellTicks()/2
 	v.cur = point{Plane: i, Wire: (w0 + w1) / 2, Tick: (t0 + t1) / 2}
-	v.centreOthers()
+	v.centreOthers(centres)
 }
 
 // setFocus moves the cursor to plane k, at the same tick and at the wire

@@ -321,3 +321,20 @@ func TestBatchedRunes(t *testing.T) {
 		t.Errorf("after \"++\" in one message: %g wires per pixel, want %g", got, wpp/4)
 	}
 }
+
+// TestZoomKeepsInteractionOnAllPlanes zooms onto the synthetic vertex on
+// the collection plane: the other planes still show the vertex.
+func TestZoomKeepsInteractionOnAllPlanes(t *testing.T) {
+	m := newViewModel(t, newSynthSource(1, 400), 160, 48, render.TierMono)
+	v := m.pv
+	putCursor(m, 2)
+	keys(t, m, "+", "+", "+")
+	for i := range v.det.Planes {
+		p, _ := v.paneOf(i)
+		w, tk := v.det.Project(i, synthVertex)
+		col, row := v.cellOf(i, w, tk)
+		if col < 0 || col >= p.w || row < 0 || row >= p.h {
+			t.Errorf("plane %s: the vertex is at cell (%d,%d), outside the %d×%d pane", v.det.Planes[i].Role, col, row, p.w, p.h)
+		}
+	}
+}
