@@ -154,6 +154,15 @@ func (st *scannerTerm) expect(text string) {
 // wiresRe finds a plane's wire range in the header, e.g. "wires 250–650".
 var wiresRe = regexp.MustCompile(`wires \d+–\d+`)
 
+// span is the number of wires in a "wires N–M" range.
+func span(r string) int {
+	var lo, hi int
+	if _, err := fmt.Sscanf(r, "wires %d–%d", &lo, &hi); err != nil {
+		return 0
+	}
+	return hi - lo
+}
+
 // view waits for the next header with a wire range and returns it.
 func (st *scannerTerm) view() string {
 	st.t.Helper()
@@ -175,8 +184,10 @@ func (st *scannerTerm) view() string {
 func TestServeStation(t *testing.T) {
 	s := startStation(t, "ana", "ben")
 	ana, ben := s.connect(t, "ana"), s.connect(t, "ben")
+	var full int // wires across ben's unzoomed view
 	for _, sc := range []*scannerTerm{ana, ben} {
-		sc.expect("ind1 wire ") // the cursor line: the event is on screen
+		full = span(sc.view())  // the header of the first frame with the event
+		sc.expect("ind1 wire ") // the cursor line below it
 		sc.send("1")
 		sc.expect("saved ✓")
 		sc.send("C")
@@ -200,7 +211,7 @@ func TestServeStation(t *testing.T) {
 	ben.expect("saved ✓")
 	ben.send("+")
 	before := ben.view()
-	for before == "" {
+	for span(before) >= full { // frames drawn before the zoom
 		before = ben.view()
 	}
 	ben.conn.Close()
