@@ -108,3 +108,13 @@ func TestPrefetch(t *testing.T) {
 		t.Error("the event after the next was not prefetched")
 	}
 }
+
+// TestEventList opens the list, moves down twice and opens that event.
+func TestEventList(t *testing.T) {
+	src := newSynthSource(4, 200)
+	m := newViewModel(t, src, 120, 40, render.TierMono)
+	keys(t, m, "ctrl+o", "down", "down", "enter")
+	if m.showList || m.ids[m.cur] != src.ids[2] {
+		t.Errorf("list open %v, showing %s; want the list closed and %s shown", m.showList, m.ids[m.cur], src.ids[2])
+	}
+}

@@ -46,6 +46,9 @@ func (l *eventList) setSize(w, h int) {
 	l.t.SetWidth(w)
 	l.t.SetHeight(h - 1)
 	l.refresh()
+	if l.t.Cursor() < 0 {
+		l.t.SetCursor(max(l.cur, 0))
+	}
 }
 
 // setStatus records an event's status (scanning mode: the pass state).
