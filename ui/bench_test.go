@@ -1,12 +1,15 @@
 package ui
 
 import (
+	"os"
+	"path/filepath"
 	"syscall"
 	"testing"
 	"time"
 
 	"github.com/tpcscan/tpcscan/render"
 	"github.com/tpcscan/tpcscan/scan"
+	"github.com/tpcscan/tpcscan/scan/dataset"
 	"github.com/tpcscan/tpcscan/scan/detector"
 	"github.com/tpcscan/tpcscan/scan/sim"
 )
@@ -108,4 +111,53 @@ func TestFrameBytes(t *testing.T) {
 			t.Errorf("256-colour full frame is %d bytes, over 64 KB", n)
 		}
 	}
+}
+
+// BenchmarkLoadPrepare compares, in one run, reading a full-size event's
+// raw plane files from the page cache with loading it through the dataset
+// package and building its pyramids (the target: at most twice the raw
+// read). It also reports the prepared event's extra memory relative to
+// the raw samples.
+func BenchmarkLoadPrepare(b *testing.B) {
+	det := detector.Tarn()
+	dir := b.TempDir()
+	w, err := dataset.Create(dir, det)
+	if err != nil {
+		b.Fatal(err)
+	}
+	ev := synthEvent(det, "full", 0)
+	if err := w.Add(ev, nil); err != nil {
+		b.Fatal(err)
+	}
+	if err := w.Close(); err != nil {
+		b.Fatal(err)
+	}
+	ds, err := dataset.Open(dir)
+	if err != nil {
+		b.Fatal(err)
+	}
+	info, _ := ds.Event("full")
+	b.Run("read-raw", func(b *testing.B) {
+		for b.Loop() {
+			for _, f := range info.Files {
+				if _, err := os.ReadFile(filepath.Join(dir, f)); err != nil {
+					b.Fatal(err)
+				}
+			}
+		}
+	})
+	b.Run("load+pyramid", func(b *testing.B) {
+		var p *prepared
+		for b.Loop() {
+			if p, err = loadEvent(DatasetSource{D: ds}, "full"); err != nil {
+				b.Fatal(err)
+			}
+		}
+		raw, extra := 0, 0
+		for i, img := range p.ev.Planes {
+			raw += 4 * len(img.Pix)
+			extra += p.pyr[i].Bytes()
+		}
+		b.ReportMetric(float64(raw+extra)/float64(raw), "mem/raw")
+	})
 }

@@ -3,6 +3,7 @@ package ui
 import (
 	"fmt"
 	"math"
+	"sync"
 
 	"github.com/tpcscan/tpcscan/render"
 	"github.com/tpcscan/tpcscan/scan"
@@ -36,13 +37,20 @@ func prepare(ev *scan.Event) (*prepared, error) {
 	if err := ev.Validate(); err != nil {
 		return nil, err
 	}
-	p := &prepared{ev: ev, tick0: math.Inf(1), tick1: math.Inf(-1)}
-	for _, img := range ev.Planes {
-		p.pyr = append(p.pyr, render.NewPyramid(img))
-		p.rng = append(p.rng, autoRange(img))
+	n := len(ev.Planes)
+	p := &prepared{ev: ev, tick0: math.Inf(1), tick1: math.Inf(-1),
+		pyr: make([]*render.Pyramid, n), rng: make([]render.Range, n)}
+	// Planes are independent: build them on all cores.
+	var wg sync.WaitGroup
+	for i, img := range ev.Planes {
+		wg.Go(func() {
+			p.pyr[i] = render.NewPyramid(img)
+			p.rng[i] = autoRange(img)
+		})
 		p.tick0 = math.Min(p.tick0, float64(img.Tick0))
 		p.tick1 = math.Max(p.tick1, float64(img.Tick0+img.Ticks))
 	}
+	wg.Wait()
 	if p.tick1 <= p.tick0 {
 		p.tick0, p.tick1 = 0, float64(ev.Detector.ReadoutTicks)
 	}
