@@ -299,3 +299,24 @@ func TestScanHelpShowsSchemaKeys(t *testing.T) {
 		send(t, m, ShutdownMsg{})
 	}
 }
+
+// TestMissingEvent: a campaign event the dataset lacks is named on screen
+// and can be skipped; nothing is lost.
+func TestMissingEvent(t *testing.T) {
+	f := newScanFixture(t, scan.ModeLabel, 1)
+	f.src.ids = nil // the dataset no longer has the campaign's event
+	m := New(Options{Source: f.src, Store: f.st, CampaignID: f.camp, Scanner: "gil", Tier: render.TierMono})
+	send(t, m, tea.WindowSizeMsg{Width: 120, Height: 40})
+	run(t, m, m.Init())
+	out := ansi.Strip(m.View())
+	if !strings.Contains(out, "syn-001") || !strings.Contains(out, "missing from the dataset") {
+		t.Fatalf("no message naming the missing event:\n%s", out)
+	}
+	passID := m.sess.pass.ID
+	keys(t, m, "ctrl+k")
+	send(t, m, tea.KeyMsg{Type: tea.KeyRunes, Runes: []rune("file gone")})
+	keys(t, m, "enter")
+	if p := f.pass(t, passID); p.State != scan.PassSkipped {
+		t.Errorf("the pass of the missing event is %s, want skipped", p.State)
+	}
+}
