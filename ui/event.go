@@ -24,6 +24,7 @@ type prepared struct {
 	rng   []render.Range
 	tick0 float64 // first detector tick any plane covers
 	tick1 float64 // one past the last
+	peak  []point // each plane's highest sample, where the cursor starts
 }
 
 // Charge percentiles for the automatic colour range (common practice:
@@ -39,13 +40,14 @@ func prepare(ev *scan.Event) (*prepared, error) {
 	}
 	n := len(ev.Planes)
 	p := &prepared{ev: ev, tick0: math.Inf(1), tick1: math.Inf(-1),
-		pyr: make([]*render.Pyramid, n), rng: make([]render.Range, n)}
+		pyr: make([]*render.Pyramid, n), rng: make([]render.Range, n), peak: make([]point, n)}
 	// Planes are independent: build them on all cores.
 	var wg sync.WaitGroup
 	for i, img := range ev.Planes {
 		wg.Go(func() {
 			p.pyr[i] = render.NewPyramid(img)
 			p.rng[i] = autoRange(img)
+			p.peak[i] = peakOf(i, img)
 		})
 		p.tick0 = math.Min(p.tick0, float64(img.Tick0))
 		p.tick1 = math.Max(p.tick1, float64(img.Tick0+img.Ticks))
@@ -80,4 +82,19 @@ func loadEvent(src Source, id string) (*prepared, error) {
 		return nil, fmt.Errorf("load event %s: %w", id, err)
 	}
 	return p, nil
+}
+
+// peakOf finds the plane's highest sample (detector coordinates, the
+// centre of the sample); an empty plane gives its middle.
+func peakOf(i int, img *scan.Image) point {
+	best, at := float32(math.Inf(-1)), -1
+	for k, v := range img.Pix {
+		if v > best {
+			best, at = v, k
+		}
+	}
+	if at < 0 || img.Ticks == 0 {
+		return point{Plane: i, Wire: float64(img.Wire0) + float64(img.Wires)/2, Tick: float64(img.Tick0) + float64(img.Ticks)/2}
+	}
+	return point{Plane: i, Wire: float64(img.Wire0+at/img.Ticks) + 0.5, Tick: float64(img.Tick0+at%img.Ticks) + 0.5}
 }

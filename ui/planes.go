@@ -243,9 +243,9 @@ func (v *planes) fit() {
 		v.win.WPP[i] = math.Max(float64(img.Wires), 1) / float64(pw*v.px)
 	}
 	if v.cur == (point{}) || v.cur.Plane >= n {
+		// Start on the brightest sample: usually the interaction.
 		v.focus = min(v.focus, n-1)
-		img := v.prep.ev.Planes[v.focus]
-		v.cur = point{Plane: v.focus, Wire: float64(img.Wire0) + float64(img.Wires)/2, Tick: (v.prep.tick0 + v.prep.tick1) / 2}
+		v.cur = v.prep.peak[v.focus]
 	}
 }
 
