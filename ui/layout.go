@@ -135,8 +135,13 @@ func (m *Model) body(d dims) []string {
 	var b strings.Builder
 	for r := range out {
 		b.Reset()
-		for _, c := range cols {
+		for k, c := range cols {
 			b.WriteString(c[r])
+			if k < len(cols)-1 {
+				// A full reset between panels: a renderer that misses a
+				// partial one (default background) must not tint the next.
+				b.WriteString("\x1b[m")
+			}
 		}
 		out[r] = b.String()
 	}

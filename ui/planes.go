@@ -406,7 +406,37 @@ func (v *planes) linkedWireFrom(k int, centre float64) (float64, bool) {
 	if !ok {
 		return 0, false
 	}
+	if w, ok := v.chargeAtTick(k, r); ok {
+		return w, true
+	}
 	return clamp(centre, r.Lo, r.Hi), true
+}
+
+// chargeAtTick looks for the same deposit on plane k: the wire in range r
+// with the most charge within a couple of cells of the cursor's tick (all
+// planes see a deposit at the same drift time). It reports false when
+// nothing there stands out of the plane's colour range.
+func (v *planes) chargeAtTick(k int, r detector.WireRange) (float64, bool) {
+	img := v.prep.ev.Planes[k]
+	w0 := max(int(math.Floor(r.Lo))-img.Wire0, 0)
+	w1 := min(int(math.Ceil(r.Hi))-img.Wire0, img.Wires-1)
+	span := max(int(2*v.cellTicks()), 3)
+	t := int(math.Floor(v.cur.Tick)) - img.Tick0
+	t0, t1 := max(t-span, 0), min(t+span, img.Ticks-1)
+	best, at := float32(math.Inf(-1)), -1
+	for w := w0; w <= w1; w++ {
+		row := img.Row(w)
+		for tk := t0; tk <= t1; tk++ {
+			if row[tk] > best {
+				best, at = row[tk], w
+			}
+		}
+	}
+	rg := v.prep.rng[k]
+	if at < 0 || float64(best) < rg.Lo+0.3*(rg.Hi-rg.Lo) {
+		return 0, false
+	}
+	return float64(at+img.Wire0) + 0.5, true
 }
 
 // centre is the wire in the middle of plane k's view.
