@@ -140,7 +140,7 @@ func (m *Model) body(d dims) []string {
 			if k < len(cols)-1 {
 				// A full reset between panels: a renderer that misses a
 				// partial one (default background) must not tint the next.
-				b.WriteString("\x1b[m")
+				b.WriteString("\x1b[0m")
 			}
 		}
 		out[r] = b.String()
