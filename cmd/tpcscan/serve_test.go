@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bytes"
 	"context"
 	"crypto/ed25519"
 	"crypto/rand"
@@ -8,6 +9,7 @@ import (
 	"io"
 	"log/slog"
 	"net"
+	"os"
 	"path/filepath"
 	"regexp"
 	"strings"
@@ -277,5 +279,71 @@ func TestServeStationColours(t *testing.T) {
 				}
 			}
 		})
+	}
+}
+
+func TestServeCommandRefusesBadSetups(t *testing.T) {
+	dir := t.TempDir()
+	_, text := testKey(t)
+	crew := filepath.Join(dir, "crew.txt")
+	if err := os.WriteFile(crew, []byte("ana scanner "+text+"\n"), 0o600); err != nil {
+		t.Fatal(err)
+	}
+	badCrew := filepath.Join(dir, "bad.txt")
+	if err := os.WriteFile(badCrew, []byte("# crew\nana admin "+text+"\n"), 0o600); err != nil {
+		t.Fatal(err)
+	}
+	empty := filepath.Join(dir, "empty.db")
+	st, err := backend.Open(context.Background(), empty)
+	if err != nil {
+		t.Fatal(err)
+	}
+	st.Close()
+	tests := []struct {
+		name string
+		args []string
+		want string
+	}{
+		{"no db", []string{"--scanners", crew}, "serve needs --db"},
+		{"no scanners", []string{"--db", empty}, "serve needs --scanners"},
+		{"bad limit", []string{"--db", empty, "--scanners", crew, "--max-sessions", "0"}, "at least 1"},
+		{"stray argument", []string{"--db", empty, "--scanners", crew, "extra"}, "flags only"},
+		{"no campaign", []string{"--db", empty, "--scanners", crew}, "no campaign"},
+	}
+	for _, tc := range tests {
+		t.Run(tc.name, func(t *testing.T) {
+			var out bytes.Buffer
+			env := &environ{stdout: &out, stderr: &out, getenv: func(string) string { return "" }}
+			err := run(context.Background(), env, append([]string{"serve"}, tc.args...))
+			if err == nil || !strings.Contains(err.Error(), tc.want) {
+				t.Errorf("err = %v, want %q", err, tc.want)
+			}
+		})
+	}
+	// The scanners file is read before anything listens; its errors name
+	// the line. (A campaign is needed to get that far.)
+	var out bytes.Buffer
+	env := &environ{stdout: &out, stderr: &out, getenv: func(string) string { return "" }}
+	db := filepath.Join(dir, "one.db")
+	st2, err := backend.Open(context.Background(), db)
+	if err != nil {
+		t.Fatal(err)
+	}
+	data := filepath.Join(dir, "tarn")
+	if err := sim.WriteDataset(context.Background(), data, sim.Options{Events: 1, Seed: 1, Size: "demo"}, nil); err != nil {
+		t.Fatal(err)
+	}
+	ds, err := dataset.Open(data)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if _, err := st2.CreateCampaign(context.Background(), scan.Campaign{Name: "one", Dataset: data, Mode: scan.ModeLabel,
+		PerEvent: 1, Seed: 1, Schema: scan.DefaultSchema()}, []scan.CampaignEvent{{EventID: ds.Events()[0].ID}}); err != nil {
+		t.Fatal(err)
+	}
+	st2.Close()
+	err = run(context.Background(), env, []string{"serve", "--db", db, "--scanners", badCrew})
+	if err == nil || !strings.Contains(err.Error(), "bad.txt:2: role \"admin\"") {
+		t.Errorf("bad scanners file: err = %v", err)
 	}
 }
