@@ -39,6 +39,7 @@ type session struct {
 	loadErr error
 
 	label      scan.Label
+	closing    bool // a submit or skip is being saved: no more edits to this pass
 	undo, redo []scan.Label
 	lastMark   time.Time // when time was last counted toward the pass
 
@@ -220,7 +221,7 @@ func (s *session) onPass(msg passMsg) tea.Cmd {
 		return nil
 	}
 	s.setPasses(msg.passes)
-	s.pass, s.hasPass, s.done = msg.pass, true, false
+	s.pass, s.hasPass, s.done, s.closing = msg.pass, true, false, false
 	s.label = msg.pass.Label
 	s.undo, s.redo, s.track, s.boxStart = nil, nil, nil, nil
 	s.lastMark = s.m.now()
@@ -303,7 +304,7 @@ func (s *session) nextGuess() int {
 // change applies an edit to the label: it is pushed on the undo stack and
 // saved at once as a draft.
 func (s *session) change(edit func(l *scan.Label)) tea.Cmd {
-	if !s.hasPass {
+	if !s.hasPass || s.closing {
 		return nil
 	}
 	s.undo = append(s.undo, cloneLabel(s.label))
@@ -359,6 +360,7 @@ func (s *session) save(state scan.PassState, then tea.Cmd) tea.Cmd {
 func (s *session) onSaved(msg savedMsg) tea.Cmd {
 	if msg.err != nil {
 		s.m.log.Error("save revision", "pass", s.pass.ID, "err", msg.err)
+		s.closing = false // the pass stays open: the scanner can try again
 		return nil
 	}
 	if msg.rev.ID != 0 && msg.rev.PassID == s.pass.ID {
@@ -373,17 +375,19 @@ func (s *session) onSaved(msg savedMsg) tea.Cmd {
 
 // saveNow saves the current label (SaveDraftMsg).
 func (s *session) saveNow() tea.Cmd {
-	if !s.hasPass {
+	if !s.hasPass || s.closing {
 		return nil
 	}
 	return s.save(s.editState(), nil)
 }
 
 // saveOnQuit saves what is unsaved and the resume point, synchronously
-// inside the returned command, so the program quits only after both.
+// inside the returned command, and waits for saves already under way, so
+// the program quits only after all of them.
 func (s *session) saveOnQuit() tea.Cmd {
 	save := s.saveNow()
 	resume := s.saveResume()
+	sv := s.saver
 	return func() tea.Msg {
 		if save != nil {
 			save()
@@ -391,9 +395,13 @@ func (s *session) saveOnQuit() tea.Cmd {
 		if resume != nil {
 			resume()
 		}
+		sv.wait(quitWait)
 		return nil
 	}
 }
+
+// quitWait bounds how long quitting waits for saves under way.
+const quitWait = 10 * time.Second
 
 // indicator is the title bar's save state.
 func (s *session) indicator() string {
@@ -443,6 +451,7 @@ type saver struct {
 	pending  float64 // seconds not yet written
 	err      error
 	count    int
+	pendingW sync.WaitGroup // saves begun and not yet written or dropped
 }
 
 func (sv *saver) begin(secs float64) int {
@@ -451,7 +460,22 @@ func (sv *saver) begin(secs float64) int {
 	sv.next++
 	sv.inFlight++
 	sv.pending += secs
+	sv.pendingW.Add(1)
 	return sv.next
+}
+
+// wait blocks until every begun save has been written or dropped, or d
+// has passed.
+func (sv *saver) wait(d time.Duration) {
+	done := make(chan struct{})
+	go func() {
+		sv.pendingW.Wait()
+		close(done)
+	}()
+	select {
+	case <-done:
+	case <-time.After(d):
+	}
 }
 
 // write stores rev unless a later save was already written; it holds the
@@ -459,6 +483,7 @@ func (sv *saver) begin(secs float64) int {
 func (sv *saver) write(seq int, rev scan.Revision, store func(scan.Revision) (scan.Revision, error)) (scan.Revision, error) {
 	sv.mu.Lock()
 	defer sv.mu.Unlock()
+	defer sv.pendingW.Done()
 	sv.inFlight--
 	if seq <= sv.done {
 		return scan.Revision{}, nil
@@ -488,6 +513,9 @@ func (sv *saver) written() int {
 
 // Undo and redo swap whole labels.
 func (s *session) doUndo() tea.Cmd {
+	if s.closing {
+		return nil
+	}
 	if len(s.undo) == 0 {
 		s.m.status = "nothing to undo"
 		return nil
@@ -499,6 +527,9 @@ func (s *session) doUndo() tea.Cmd {
 }
 
 func (s *session) doRedo() tea.Cmd {
+	if s.closing {
+		return nil
+	}
 	if len(s.redo) == 0 {
 		s.m.status = "nothing to redo"
 		return nil
@@ -543,7 +574,7 @@ func hotkeyList(cs []scan.Choice) string {
 }
 
 func (s *session) submit() tea.Cmd {
-	if !s.hasPass {
+	if !s.hasPass || s.closing {
 		return nil
 	}
 	if miss := s.missing(); len(miss) > 0 {
@@ -555,10 +586,14 @@ func (s *session) submit() tea.Cmd {
 		return nil
 	}
 	s.m.status = ""
+	s.closing = true
 	return s.save(scan.PassSubmitted, s.next())
 }
 
 func (s *session) skip(reason string) tea.Cmd {
+	if s.closing {
+		return nil
+	}
 	reason = strings.TrimSpace(scan.CleanText(reason))
 	if reason == "" {
 		s.m.status = "a skip needs a reason"
@@ -569,6 +604,7 @@ func (s *session) skip(reason string) tea.Cmd {
 		s.label.Comment += " · "
 	}
 	s.label.Comment += "skipped: " + reason
+	s.closing = true
 	return s.save(scan.PassSkipped, s.next())
 }
 

@@ -320,3 +320,25 @@ func TestMissingEvent(t *testing.T) {
 		t.Errorf("the pass of the missing event is %s, want skipped", p.State)
 	}
 }
+
+// TestNoEditWhileSubmitting: keys pressed after a submit, before the next
+// event arrives, cannot turn the submitted pass back into a draft.
+func TestNoEditWhileSubmitting(t *testing.T) {
+	f := newScanFixture(t, scan.ModeLabel, 2)
+	m := f.open(t, "hal", 160, 48)
+	keys(t, m, "1", "Z")
+	first := m.sess.pass.ID
+	// Submit, but hold its save: press more keys first.
+	_, submitCmd := m.Update(keyMsg("ctrl+s"))
+	_, editCmd := m.Update(keyMsg("2"))
+	if editCmd != nil || m.sess.label.Class != "numu-cc" {
+		t.Errorf("an edit went through while the submit was being saved (class %q)", m.sess.label.Class)
+	}
+	run(t, m, submitCmd)
+	if p := f.pass(t, first); p.State != scan.PassSubmitted || p.Label.Class != "numu-cc" {
+		t.Errorf("pass %s class %q, want submitted numu-cc", p.State, p.Label.Class)
+	}
+	if m.sess.pass.ID == first {
+		t.Error("the station did not move on after the submit")
+	}
+}
