@@ -47,7 +47,7 @@ func prepare(ev *scan.Event) (*prepared, error) {
 		wg.Go(func() {
 			p.pyr[i] = render.NewPyramid(img)
 			p.rng[i] = autoRange(img)
-			p.peak[i] = peakOf(i, img)
+			p.peak[i] = peakOf(i, img, p.pyr[i])
 		})
 		p.tick0 = math.Min(p.tick0, float64(img.Tick0))
 		p.tick1 = math.Max(p.tick1, float64(img.Tick0+img.Ticks))
@@ -85,16 +85,49 @@ func loadEvent(src Source, id string) (*prepared, error) {
 }
 
 // peakOf finds the plane's highest sample (detector coordinates, the
-// centre of the sample); an empty plane gives its middle.
-func peakOf(i int, img *scan.Image) point {
-	best, at := float32(math.Inf(-1)), -1
-	for k, v := range img.Pix {
-		if v > best {
-			best, at = v, k
+// centre of the sample) through its pyramid: the brightest block of a
+// coarse 64×64 max sampling, then the brightest sample inside it, so the
+// cost does not grow with the plane. An empty plane gives its middle.
+func peakOf(i int, img *scan.Image, pyr *render.Pyramid) point {
+	mid := point{Plane: i, Wire: float64(img.Wire0) + float64(img.Wires)/2, Tick: float64(img.Tick0) + float64(img.Ticks)/2}
+	if img.Wires == 0 || img.Ticks == 0 {
+		return mid
+	}
+	const n = 64
+	win := render.Window{WiresPerPx: float64(img.Wires) / n, TicksPerPx: float64(img.Ticks) / n}
+	g := render.Grid{W: n, H: n}
+	pyr.Sample(&g, win, render.ReduceMax)
+	col, row, ok := argmax(&g)
+	if !ok {
+		return mid
+	}
+	// The pyramid's blocks need not align with the grid's: search the
+	// neighbouring cells too.
+	w0, t0 := max(int(float64(col-1)*win.WiresPerPx), 0), max(int(float64(row-1)*win.TicksPerPx), 0)
+	w1 := min(int(math.Ceil(float64(col+2)*win.WiresPerPx)), img.Wires)
+	t1 := min(int(math.Ceil(float64(row+2)*win.TicksPerPx)), img.Ticks)
+	best, bw, bt := float32(math.Inf(-1)), -1, -1
+	for w := w0; w < w1; w++ {
+		r := img.Row(w)
+		for t := t0; t < t1; t++ {
+			if r[t] > best {
+				best, bw, bt = r[t], w, t
+			}
 		}
 	}
-	if at < 0 || img.Ticks == 0 {
-		return point{Plane: i, Wire: float64(img.Wire0) + float64(img.Wires)/2, Tick: float64(img.Tick0) + float64(img.Ticks)/2}
+	if bw < 0 {
+		return mid
 	}
-	return point{Plane: i, Wire: float64(img.Wire0+at/img.Ticks) + 0.5, Tick: float64(img.Tick0+at%img.Ticks) + 0.5}
+	return point{Plane: i, Wire: float64(img.Wire0+bw) + 0.5, Tick: float64(img.Tick0+bt) + 0.5}
+}
+
+// argmax returns the grid cell with the highest value, skipping NaN.
+func argmax(g *render.Grid) (col, row int, ok bool) {
+	best := float32(math.Inf(-1))
+	for k, v := range g.Pix[:g.W*g.H] {
+		if v > best {
+			best, col, row, ok = v, k%g.W, k/g.W, true
+		}
+	}
+	return col, row, ok
 }

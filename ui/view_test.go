@@ -338,3 +338,20 @@ func TestZoomKeepsInteractionOnAllPlanes(t *testing.T) {
 		}
 	}
 }
+
+// TestCursorStartsOnPeak: a new event puts the cursor on the brightest
+// sample of the focused plane.
+func TestCursorStartsOnPeak(t *testing.T) {
+	det := detector.Tarn()
+	ev := &scan.Event{ID: "peak", Detector: det}
+	for i := range det.Planes {
+		img := scan.NewImage(300, 900)
+		img.Wire0, img.Tick0 = 100, 2000
+		img.Set(123+i, 456, 99)
+		ev.Planes = append(ev.Planes, img)
+	}
+	m := newViewModel(t, &fixedSource{evs: []*scan.Event{ev}}, 100, 30, render.TierMono)
+	if c := m.pv.cur; c.Plane != 0 || c.Wire != 223.5 || c.Tick != 2456.5 {
+		t.Errorf("cursor starts at %+v, want plane 0 wire 223.5 tick 2456.5", c)
+	}
+}
