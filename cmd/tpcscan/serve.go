@@ -9,6 +9,7 @@ import (
 	"os"
 	"os/signal"
 	"path/filepath"
+	"runtime"
 	"slices"
 	"strings"
 	"syscall"
@@ -244,9 +245,10 @@ func warnExposure(log *slog.Logger, addr net.Addr) {
 // same root model as the local station, with the session's renderer,
 // colour tier and identity.
 func stationFactory(st store.Store, ds *dataset.Dataset, campaignID int64) serve.Factory {
+	src := newPlanesOnly(ds, max(1, runtime.GOMAXPROCS(0)/2))
 	return func(ctx context.Context, s serve.Session) (serve.App, error) {
 		m := ui.New(ui.Options{
-			Dataset: ds, Source: planesOnly{ds}, Store: st, CampaignID: campaignID,
+			Dataset: ds, Source: src, Store: st, CampaignID: campaignID,
 			Scanner: s.Scanner, Role: string(s.Role),
 			Tier: s.Tier, Renderer: s.Renderer, Keys: ui.DefaultKeyMap(),
 			Logger: s.Logger, Context: ctx,
@@ -259,10 +261,19 @@ func stationFactory(st store.Store, ds *dataset.Dataset, campaignID int64) serve
 	}
 }
 
-// planesOnly serves a dataset's events without their pixel truth: the
-// station never draws it, and over SSH every session would keep its own
-// copy (a third of a demo event's memory).
-type planesOnly struct{ ds *dataset.Dataset }
+// planesOnly serves a dataset's events to every session, without their
+// pixel truth (the station never draws it, and each session would keep its
+// own copy: a third of a demo event's memory), and decodes at most a few
+// events at a time, so that a crew logging in at once, each session
+// loading and prefetching, leaves CPU for the others' keystrokes.
+type planesOnly struct {
+	ds    *dataset.Dataset
+	slots chan struct{}
+}
+
+func newPlanesOnly(ds *dataset.Dataset, concurrent int) planesOnly {
+	return planesOnly{ds: ds, slots: make(chan struct{}, concurrent)}
+}
 
 func (p planesOnly) EventIDs() []string {
 	evs := p.ds.Events()
@@ -274,6 +285,8 @@ func (p planesOnly) EventIDs() []string {
 }
 
 func (p planesOnly) Load(id string) (*scan.Event, error) {
+	p.slots <- struct{}{}
+	defer func() { <-p.slots }()
 	ev, err := p.ds.Load(id)
 	if ev != nil {
 		ev.Truth = nil

@@ -217,7 +217,7 @@ func TestPlanesOnlyDropsPixelTruth(t *testing.T) {
 	if err != nil {
 		t.Fatal(err)
 	}
-	src := planesOnly{ds}
+	src := newPlanesOnly(ds, 1)
 	ids := src.EventIDs()
 	if len(ids) != 1 {
 		t.Fatalf("ids %v", ids)
