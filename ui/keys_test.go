@@ -1,6 +1,7 @@
 package ui
 
 import (
+	"math"
 	"strings"
 	"testing"
 
@@ -116,5 +117,17 @@ func TestEventList(t *testing.T) {
 	keys(t, m, "ctrl+o", "down", "down", "enter")
 	if m.showList || m.ids[m.cur] != src.ids[2] {
 		t.Errorf("list open %v, showing %s; want the list closed and %s shown", m.showList, m.ids[m.cur], src.ids[2])
+	}
+}
+
+// TestListKeepsZoom: opening the list over the planes (narrow window) and
+// closing it again keeps the zoom.
+func TestListKeepsZoom(t *testing.T) {
+	m := newViewModel(t, newSynthSource(2, 300), 80, 24, render.TierMono)
+	keys(t, m, "+", "+")
+	wpp := m.pv.win.WPP[0]
+	keys(t, m, "ctrl+o", "esc")
+	if got := m.pv.win.WPP[0]; math.Abs(got-wpp) > 1e-9 {
+		t.Errorf("after the list: %g wires per pixel, was %g", got, wpp)
 	}
 }

@@ -66,10 +66,13 @@ type planes struct {
 	log      bool
 	reduce   render.Reduce
 
-	w, h  int  // size of the plane area in cells
-	one   bool // one plane enlarged
-	focus int  // plane the cursor is on
-	panes []pane
+	w, h int // size of the plane area in cells
+	// lastPW and lastPH are the last pane size that held an image, to
+	// rescale the window when panes come back after a resize.
+	lastPW, lastPH int
+	one            bool // one plane enlarged
+	focus          int  // plane the cursor is on
+	panes          []pane
 
 	win window
 	cur point
@@ -149,29 +152,36 @@ func sameCoverage(a, b *prepared) bool {
 	return true
 }
 
-// setSize lays the panes out in a w×h cell area.
+// setSize lays the panes out in a w×h cell area. The window keeps what
+// it shows, rescaled to the new pane size; while the area is too small
+// for panes (the event list covers it) the window is left alone.
 func (v *planes) setSize(w, h int) {
 	if w == v.w && h == v.h {
 		return
 	}
-	oldW, oldH := v.paneSize()
+	if pw, ph := v.paneSize(); pw > 0 && ph > 0 {
+		v.lastPW, v.lastPH = pw, ph
+	}
 	v.w, v.h = w, h
 	v.layout()
 	if v.det == nil {
 		return
 	}
 	newW, newH := v.paneSize()
-	// Keep what is shown: rescale pixels to the new pane size.
-	if oldW > 0 && oldH > 0 && newW > 0 && newH > 0 && len(v.win.WPP) > 0 {
-		v.win.TPP *= float64(oldH) / float64(newH)
+	switch {
+	case newW == 0 || newH == 0:
+		return
+	case v.lastPW > 0 && v.lastPH > 0 && len(v.win.WPP) > 0:
+		v.win.TPP *= float64(v.lastPH) / float64(newH)
 		for i := range v.win.WPP {
-			v.win.WPP[i] *= float64(oldW) / float64(newW)
+			v.win.WPP[i] *= float64(v.lastPW) / float64(newW)
 		}
 		v.clampZoom()
-	} else {
+	default:
 		v.fit()
 	}
 	v.clampCursor()
+	v.follow()
 }
 
 func (v *planes) paneSize() (int, int) {
