@@ -107,10 +107,20 @@ func (m *Model) onKey(msg tea.KeyMsg) tea.Cmd {
 		return m.quit()
 	case key.Matches(msg, k.Help):
 		m.showHelp = !m.showHelp
+		m.helpTop = 0
 		return nil
 	case m.showHelp:
-		if key.Matches(msg, k.Cancel) {
+		switch {
+		case key.Matches(msg, k.Cancel):
 			m.showHelp = false
+		case key.Matches(msg, k.Up):
+			m.helpTop--
+		case key.Matches(msg, k.Down):
+			m.helpTop++
+		case key.Matches(msg, k.PanEarlier):
+			m.helpTop -= 10
+		case key.Matches(msg, k.PanLater):
+			m.helpTop += 10
 		}
 		return nil
 	case key.Matches(msg, k.EventList):

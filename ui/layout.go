@@ -116,7 +116,7 @@ func wrap(s string, w int) []string {
 // side by side, or the help overlay.
 func (m *Model) body(d dims) []string {
 	if m.showHelp {
-		return block(m.helpView(), m.width, d.bodyH)
+		return m.helpLines(d.bodyH)
 	}
 	if m.sess != nil && m.sess.showInstr {
 		return block(m.sess.instrView(), m.width, d.bodyH)
@@ -258,4 +258,19 @@ func (m *Model) statusLine() string {
 		return fit(" "+m.status, m.width, m.st.Warn.Render)
 	}
 	return pad(" "+m.help.ShortHelpView(m.shortHelp()), m.width)
+}
+
+// helpLines is the help overlay, scrolled by helpTop when it is taller
+// than the body; the last line then says how to see the rest.
+func (m *Model) helpLines(h int) []string {
+	lines := strings.Split(m.helpView(), "\n")
+	if len(lines) <= h {
+		m.helpTop = 0
+		return block(strings.Join(lines, "\n"), m.width, h)
+	}
+	m.helpTop = max(0, min(m.helpTop, len(lines)-(h-1)))
+	shown := lines[m.helpTop : m.helpTop+h-1]
+	more := fmt.Sprintf("lines %d–%d of %d · %s/%s scroll", m.helpTop+1, m.helpTop+h-1, len(lines),
+		m.keys.Up.Help().Key, m.keys.Down.Help().Key)
+	return block(strings.Join(shown, "\n")+"\n"+m.st.Dim.Render(more), m.width, h)
 }

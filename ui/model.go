@@ -93,6 +93,7 @@ type Model struct {
 	err     error
 
 	showHelp bool
+	helpTop  int // first help line shown when help is taller than the window
 	list     *eventList
 	showList bool
 	sess     *session // nil in view mode

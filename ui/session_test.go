@@ -287,10 +287,20 @@ func TestDefaultKeysLeaveSchemaFree(t *testing.T) {
 // hotkeys with the scanning keys, even at 80 columns.
 func TestScanHelpShowsSchemaKeys(t *testing.T) {
 	f := newScanFixture(t, scan.ModeLabel, 1)
-	for _, w := range []int{200, 100} {
-		m := f.open(t, "fay", w, 60)
+	for _, w := range []int{200, 100, 80} {
+		h := 60
+		if w == 80 {
+			h = 24
+		}
+		m := f.open(t, "fay", w, h)
 		keys(t, m, "?")
 		out := ansi.Strip(m.View())
+		if w == 80 { // taller than the window: scroll through it
+			for range 60 {
+				keys(t, m, "down")
+				out += ansi.Strip(m.View())
+			}
+		}
 		for _, want := range []string{"class νμ CC", "particle μ", "flag not contained", "confidence 3 certain", "submit", "vertex at cursor"} {
 			if !strings.Contains(out, want) {
 				t.Errorf("%d columns: help lacks %q", w, want)
