@@ -13,6 +13,7 @@ import (
 
 	"github.com/tpcscan/tpcscan/render"
 	"github.com/tpcscan/tpcscan/scan"
+	"github.com/tpcscan/tpcscan/scan/detector"
 	"github.com/tpcscan/tpcscan/store"
 	"github.com/tpcscan/tpcscan/store/sqlite"
 )
@@ -350,5 +351,28 @@ func TestNoEditWhileSubmitting(t *testing.T) {
 	}
 	if m.sess.pass.ID == first {
 		t.Error("the station did not move on after the submit")
+	}
+}
+
+// TestVerifyBoxAndSaveDraft: a verify campaign draws the selection's box
+// on its plane; SaveDraftMsg writes the label at once.
+func TestVerifyBoxAndSaveDraft(t *testing.T) {
+	f := newScanFixture(t, scan.ModeVerify, 1)
+	m := f.open(t, "ivy", 160, 48)
+	v := m.pv
+	w, tk := v.det.Project(2, synthVertex)
+	box := &scan.Mark{Kind: scan.MarkBox, Plane: "coll", Points: []detector.PlanePoint{{Wire: w - 20, Tick: tk - 100}, {Wire: w + 20, Tick: tk + 100}}}
+	m.sess.events[m.sess.pass.EventID].Box = box
+	m.dirty = true
+	m.View()
+	p, _ := v.paneOf(2)
+	col, row := v.cellOf(2, w-20, tk-100)
+	if r := v.work.At(p.x+col, p.y+row).Rune; r != '┌' {
+		t.Errorf("selection box corner shows %q, want ┌", r)
+	}
+	m.sess.label.Comment = "typed but not yet saved"
+	send(t, m, SaveDraftMsg{})
+	if c := f.pass(t, m.sess.pass.ID).Label.Comment; c != "typed but not yet saved" {
+		t.Errorf("after SaveDraftMsg the stored comment is %q", c)
 	}
 }
