@@ -162,8 +162,8 @@ func (s DatasetSource) EventIDs() []string {
 	return ids
 }
 
-// Load reads one event.
-func (s DatasetSource) Load(id string) (*scan.Event, error) { return s.D.Load(id) }
+// Load reads one event's planes; the display never draws pixel truth.
+func (s DatasetSource) Load(id string) (*scan.Event, error) { return s.D.LoadPlanes(id) }
 
 // Init starts loading the first event (view mode) or the scanner's resume
 // point or next pass (scanning mode).

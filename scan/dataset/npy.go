@@ -10,6 +10,7 @@ import (
 	"strconv"
 	"strings"
 	"unicode/utf8"
+	"unsafe"
 )
 
 // The NumPy .npy format (an open standard, "numpy.lib.format"): the magic
@@ -335,6 +336,9 @@ func (h *npyHeader) readFloat32(r io.Reader) ([]float32, error) {
 		return nil, fmt.Errorf("dtype %s is for pixel truth, not charge", h.Descr)
 	}
 	out := make([]float32, h.Len())
+	if h.dtype.descr[1:] == "f4" && h.dtype.order == hostOrder() {
+		return out, h.readNativeFloat32(r, out)
+	}
 	err := h.chunks(r, func(first int, b []byte) error {
 		dst := out[first : first+len(b)/h.dtype.size]
 		decodeFloat32(dst, b, h.dtype)
@@ -349,12 +353,62 @@ func (h *npyHeader) readFloat32(r io.Reader) ([]float32, error) {
 	return out, err
 }
 
+// hostOrder returns the machine's byte order as one of the two values
+// dtype.order holds.
+func hostOrder() binary.ByteOrder {
+	if binary.NativeEndian.Uint16([]byte{1, 0}) == 1 {
+		return binary.LittleEndian
+	}
+	return binary.BigEndian
+}
+
+// readNativeFloat32 reads float32 data stored in the machine's own byte
+// order straight into out's memory: no copy and no conversion, so reading
+// a plane costs little more than the read itself.
+func (h *npyHeader) readNativeFloat32(r io.Reader, out []float32) error {
+	if len(out) == 0 {
+		return nil
+	}
+	raw := unsafe.Slice((*byte)(unsafe.Pointer(&out[0])), len(out)*4)
+	if _, err := io.ReadFull(r, raw); err != nil {
+		return fmt.Errorf("npy data: %w", truncated(err))
+	}
+	if !allFinite(unsafe.Slice((*uint32)(unsafe.Pointer(&out[0])), len(out))) {
+		for k, v := range out {
+			// v−v is 0 for finite v and NaN for NaN and ±Inf.
+			if v-v != 0 {
+				return h.badValue(k, raw[4*k:4*k+4])
+			}
+		}
+	}
+	return nil
+}
+
+// allFinite reports whether no float32 bit pattern in bits is NaN or ±Inf.
+// It is branch-free: an exponent field of all ones (0x7f8) is the only one
+// that carries into bit 31 when one is added to it.
+func allFinite(bits []uint32) bool {
+	var carry uint32
+	for _, b := range bits {
+		carry |= b&0x7f800000 + 0x00800000
+	}
+	return carry&0x80000000 == 0
+}
+
 // decodeFloat32 converts a chunk of raw elements; the type switch sits
 // outside the loops so that each loop is tight.
 func decodeFloat32(dst []float32, b []byte, dt dtype) {
 	o := dt.order
 	switch dt.descr[1:] {
 	case "f4":
+		if o == binary.ByteOrder(binary.LittleEndian) {
+			// The common case, with the byte order known at compile time so
+			// that each element is one load, not an interface call.
+			for k := range dst {
+				dst[k] = math.Float32frombits(binary.LittleEndian.Uint32(b[4*k:]))
+			}
+			return
+		}
 		for k := range dst {
 			dst[k] = math.Float32frombits(o.Uint32(b[4*k:]))
 		}

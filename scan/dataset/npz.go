@@ -103,6 +103,9 @@ func (l *loader) readNPZ(z *zip.Reader, size int64, ev *scan.Event) error {
 		}
 		ev.Planes = append(ev.Planes, img)
 	}
+	if l.skipTruth {
+		return nil
+	}
 	for i, p := range l.det.Planes {
 		name := string(p.Role) + "_truth"
 		m, err := npzMember(z, size, name)
