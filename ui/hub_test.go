@@ -253,7 +253,7 @@ func TestHubCoordinatorPages(t *testing.T) {
 		{nil, "[scanning]", " tpcscan · "},
 		{[]string{"ctrl+g"}, "[adjudication]", "tpcscan · adjudication · trial · dana"},
 		{[]string{"?"}, "[adjudication]", "Adjudication keys"}, // the page's own help
-		{[]string{"?", "q"}, "[scanning]", " tpcscan · "},     // its quit returns to the station
+		{[]string{"?", "q"}, "[scanning]", " tpcscan · "},      // its quit returns to the station
 		{[]string{"f2", "f2"}, "[dashboard]", "tpcscan · campaign numbers"},
 		{[]string{"q"}, "[scanning]", " tpcscan · "},
 		{[]string{"f2"}, "[adjudication]", "open  [disputes]"}, // kept its state
