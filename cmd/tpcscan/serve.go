@@ -243,22 +243,43 @@ func warnExposure(log *slog.Logger, addr net.Addr) {
 
 // stationFactory builds the scanning station for each SSH session: the
 // same root model as the local station, with the session's renderer,
-// colour tier and identity.
+// colour tier and identity. Coordinators get it inside a hub with the
+// adjudicator and the campaign dashboard.
 func stationFactory(st store.Store, ds *dataset.Dataset, campaignID int64) serve.Factory {
 	src := newPlanesOnly(ds, max(1, runtime.GOMAXPROCS(0)/2))
 	return func(ctx context.Context, s serve.Session) (serve.App, error) {
-		m := ui.New(ui.Options{
+		var m tea.Model = ui.New(ui.Options{
 			Dataset: ds, Source: src, Store: st, CampaignID: campaignID,
 			Scanner: s.Scanner, Role: string(s.Role),
 			Tier: s.Tier, Renderer: s.Renderer, Keys: ui.DefaultKeyMap(),
 			Logger: s.Logger, Context: ctx,
 		})
+		if s.Role == serve.RoleCoordinator {
+			m = coordinatorHub(ctx, m, st, src, campaignID, s)
+		}
 		return serve.App{
 			Model:   m,
 			Stop:    func(serve.StopReason) tea.Msg { return ui.ShutdownMsg{} },
 			Options: []tea.ProgramOption{tea.WithMouseCellMotion()},
 		}, nil
 	}
+}
+
+// coordinatorHub puts the station beside the adjudicator and the
+// campaign dashboard; the adjudicator and dashboard read the store only
+// when first shown.
+func coordinatorHub(ctx context.Context, station tea.Model, st store.Store, src ui.Source, campaignID int64, s serve.Session) *ui.Hub {
+	adj := ui.NewAdjudicator(ui.AdjudicateOptions{
+		Store: st, CampaignID: campaignID, Source: src, Coordinator: s.Scanner,
+		Tier: s.Tier, Renderer: s.Renderer, Keys: ui.DefaultKeyMap(), Logger: s.Logger, Context: ctx,
+	})
+	dash := ui.NewDashboard(ui.DashboardOptions{
+		Store: st, CampaignID: campaignID, Tier: s.Tier, Renderer: s.Renderer, Context: ctx,
+	})
+	return ui.NewHub(ui.HubOptions{Tier: s.Tier, Renderer: s.Renderer},
+		ui.HubPage{Name: "scanning", Model: station},
+		ui.HubPage{Name: "adjudication", Model: adj},
+		ui.HubPage{Name: "dashboard", Model: dash})
 }
 
 // planesOnly serves a dataset's events to every session, without their

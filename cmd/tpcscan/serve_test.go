@@ -41,6 +41,8 @@ type station struct {
 	ends     chan serve.SessionEnd
 }
 
+// startStation serves the station to names, each "name" (a scanner) or
+// "name:role".
 func startStation(t *testing.T, names ...string) *station {
 	t.Helper()
 	ctx := context.Background()
@@ -69,9 +71,13 @@ func startStation(t *testing.T, names ...string) *station {
 	}
 	var roster strings.Builder
 	for _, n := range names {
+		n, role, ok := strings.Cut(n, ":") // "name:coordinator"; a scanner by default
+		if !ok {
+			role = string(serve.RoleScanner)
+		}
 		signer, text := testKey(t)
 		s.keys[n] = signer
-		fmt.Fprintf(&roster, "%s scanner %s\n", n, text)
+		fmt.Fprintf(&roster, "%s %s %s\n", n, role, text)
 	}
 	ro, err := serve.ParseRoster(strings.NewReader(roster.String()), "crew")
 	if err != nil {
