@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"os"
@@ -11,6 +12,7 @@ import (
 
 	"github.com/tpcscan/tpcscan/render"
 	"github.com/tpcscan/tpcscan/scan"
+	"github.com/tpcscan/tpcscan/scan/campaign"
 	"github.com/tpcscan/tpcscan/scan/dataset"
 	"github.com/tpcscan/tpcscan/scan/sim"
 	"github.com/tpcscan/tpcscan/store"
@@ -166,7 +168,7 @@ func prepareDemo(ctx context.Context, env *environ, sc *scanConfig) error {
 	}
 	defer st.Close()
 	if _, err := st.CampaignByName(ctx, demoCampaignName); errors.Is(err, store.ErrNotFound) {
-		if err := createDemoCampaign(ctx, st, dir); err != nil {
+		if err := createDemoCampaign(ctx, st, dir, sc.scanner); err != nil {
 			return err
 		}
 	} else if err != nil {
@@ -236,7 +238,7 @@ Every change is saved at once ("saved ✓" in the title bar).
 - **cosmic only**: only long tracks crossing the whole window.
 `
 
-func createDemoCampaign(ctx context.Context, st store.Store, dir string) error {
+func createDemoCampaign(ctx context.Context, st store.Store, dir, scanner string) error {
 	ds, err := dataset.Open(dir)
 	if err != nil {
 		return fmt.Errorf("demo: %w", err)
@@ -246,9 +248,56 @@ func createDemoCampaign(ctx context.Context, st store.Store, dir string) error {
 		evs = append(evs, scan.CampaignEvent{EventID: e.ID})
 	}
 	c := scan.Campaign{Name: demoCampaignName, Dataset: dir, Mode: scan.ModeLabel, PerEvent: 1, Blind: true,
-		Seed: demoSeed, Schema: scan.DefaultSchema(), Instructions: demoInstructions}
+		Seed: demoCampaignSeed(ds, scanner), Schema: scan.DefaultSchema(), Instructions: demoInstructions}
 	if _, err := st.CreateCampaign(ctx, c, evs); err != nil && !errors.Is(err, store.ErrConflict) {
 		return fmt.Errorf("demo: %w", err)
 	}
 	return nil
+}
+
+// demoCampaignSeed picks the demo campaign's shuffle seed so that the
+// newcomer's first event is a clear νμ CC interaction (see showcase). The
+// order is still the campaign's seeded shuffle; only the seed is chosen.
+func demoCampaignSeed(ds *dataset.Dataset, scanner string) int64 {
+	evs := ds.Events()
+	good := map[int]bool{}
+	for i, e := range evs {
+		good[i] = showcase(ds, e.ID)
+	}
+	for seed := int64(demoSeed); seed < demoSeed+1000; seed++ {
+		pos := campaign.Positions(seed, len(evs))
+		start := campaign.StartOffset(seed, scanner, len(evs))
+		for i, p := range pos {
+			if p == start {
+				if good[i] {
+					return seed
+				}
+				break
+			}
+		}
+	}
+	return demoSeed
+}
+
+// showcase reports whether the generator's truth makes an event a good first
+// sight: νμ CC with a muon of at least 200 MeV (a track of most of a metre)
+// and a proton of at least 60 MeV (a few cm, with its Bragg peak).
+func showcase(ds *dataset.Dataset, id string) bool {
+	b, err := ds.TruthJSON(id)
+	if err != nil {
+		return false
+	}
+	var t sim.Truth
+	if json.Unmarshal(b, &t) != nil || t.Class != sim.ClassNumuCC {
+		return false
+	}
+	var mu, p bool
+	for _, q := range t.Particles {
+		if q.Parent != 0 || q.Origin != "interaction" {
+			continue
+		}
+		mu = mu || (q.Type == "muon" && q.KEMeV >= 200)
+		p = p || (q.Type == "proton" && q.KEMeV >= 60)
+	}
+	return mu && p
 }
