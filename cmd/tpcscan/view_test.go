@@ -9,6 +9,7 @@ import (
 	"strings"
 	"testing"
 
+	"github.com/tpcscan/tpcscan/scan/dataset"
 	"github.com/tpcscan/tpcscan/store/backend"
 )
 
@@ -72,7 +73,7 @@ func TestDemoPreparedOnce(t *testing.T) {
 		}
 		return ""
 	})
-	var sc scanConfig
+	sc := scanConfig{scanner: "newcomer"}
 	if err := prepareDemo(context.Background(), env, &sc); err != nil {
 		t.Fatal(err)
 	}
@@ -110,5 +111,17 @@ func TestDemoPreparedOnce(t *testing.T) {
 	evs, err := st.Events(context.Background(), cs[0].ID)
 	if err != nil || len(evs) != demoEvents {
 		t.Errorf("demo campaign has %d events (err %v), want %d", len(evs), err, demoEvents)
+	}
+	// The newcomer's first event is a clear νμ CC interaction.
+	p, err := st.NextPass(context.Background(), cs[0].ID, "newcomer")
+	if err != nil {
+		t.Fatal(err)
+	}
+	ds, err := dataset.Open(sc.dataset)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !showcase(ds, p.EventID) {
+		t.Errorf("first demo event %s is not a showcase νμ CC event", p.EventID)
 	}
 }
