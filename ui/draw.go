@@ -200,21 +200,30 @@ func (v *planes) paneKey(p pane) paneKey {
 func (v *planes) rangeOf(i int) render.Range {
 	r := v.prep.rng[i]
 	r.Log = v.log
+	if v.reduce == render.ReduceSum {
+		// The auto range is per sample; a summed pixel adds many samples.
+		r = r.ForSum(v.imageWindow(i))
+	}
 	return r
+}
+
+// imageWindow is plane i's view window in its image's own wire and tick
+// indices (images may be crops of the readout).
+func (v *planes) imageWindow(i int) render.Window {
+	img := v.prep.ev.Planes[i]
+	return render.Window{
+		Wire0: v.win.Wire0[i] - float64(img.Wire0), Tick0: v.win.Tick0 - float64(img.Tick0),
+		WiresPerPx: v.win.WPP[i], TicksPerPx: v.win.TPP,
+	}
 }
 
 // paint samples the pane's window from the plane's pyramid and paints it
 // into the cache.
 func (v *planes) paint(k int, p pane) {
 	i := p.plane
-	img := v.prep.ev.Planes[i]
 	g := &v.grids[k]
 	g.W, g.H = p.w*v.px, p.h*v.py
-	win := render.Window{
-		Wire0: v.win.Wire0[i] - float64(img.Wire0), Tick0: v.win.Tick0 - float64(img.Tick0),
-		WiresPerPx: v.win.WPP[i], TicksPerPx: v.win.TPP,
-	}
-	v.prep.pyr[i].Sample(g, win, v.reduce)
+	v.prep.pyr[i].Sample(g, v.imageWindow(i), v.reduce)
 	render.Paint(v.cache, p.x, p.y, g, v.scales[v.scaleIdx], v.rangeOf(i), v.tier)
 }
 
