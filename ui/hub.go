@@ -215,7 +215,11 @@ func (h *Hub) tabBar() string {
 			b.WriteString(h.st.Dim.Render(" " + p.Name + " "))
 		}
 	}
-	hint := h.keys.NextPage.Help()
-	b.WriteString(h.st.Dim.Render("  " + hint.Key + ": " + hint.Desc))
+	k := h.keys.NextPage.Help()
+	hint := "  " + k.Key + ": " + k.Desc
+	if h.active != 0 {
+		hint += " · its quit key: back to " + h.pages[0].Name
+	}
+	b.WriteString(h.st.Dim.Render(hint))
 	return pad(b.String(), h.w)
 }

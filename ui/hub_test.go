@@ -266,6 +266,9 @@ func TestHubCoordinatorPages(t *testing.T) {
 		if !strings.Contains(bar, tc.tab) || !strings.Contains(bar, "ctrl+g/f2: next page") {
 			t.Errorf("after %v the tab bar is %q, want %q and the page key", tc.keys, bar, tc.tab)
 		}
+		if back := strings.Contains(bar, "quit key: back to scanning"); back != (tc.tab != "[scanning]") {
+			t.Errorf("after %v the tab bar is %q: the way back belongs on other pages only", tc.keys, bar)
+		}
 		if !strings.Contains(body, tc.body) {
 			t.Errorf("after %v the page does not show %q:\n%s", tc.keys, tc.body, body)
 		}
