@@ -52,6 +52,7 @@ type session struct {
 	showInstr bool
 
 	saver     *saver
+	resume    *resumeSaver
 	resumeWin *resumeState // view to restore when its event is shown
 
 	w, h, screenW int
@@ -72,7 +73,7 @@ const idleCap = 10 * time.Minute
 
 func newSession(m *Model, opts Options) *session {
 	s := &session{m: m, st: opts.Store, campID: opts.CampaignID, scanner: opts.Scanner,
-		events: map[string]*scan.Selection{}, saver: &saver{}}
+		events: map[string]*scan.Selection{}, saver: &saver{}, resume: &resumeSaver{}}
 	s.input = textinput.New()
 	s.input.CharLimit = 500
 	// A steady cursor: blinking would redraw the line twice a second over
@@ -284,12 +285,39 @@ func (s *session) saveResume() tea.Cmd {
 		return nil
 	}
 	st, ctx, id, who, log := s.st, s.m.ctx, s.campID, s.scanner, s.m.log
+	rs, seq := s.resume, s.resume.take()
 	return func() tea.Msg {
-		if err := st.SaveResume(ctx, id, who, b); err != nil {
+		if err := rs.write(seq, func() error { return st.SaveResume(ctx, id, who, b) }); err != nil {
 			log.Warn("save resume point", "err", err)
 		}
 		return nil
 	}
+}
+
+// resumeSaver writes resume points in the order they were taken: the
+// commands run concurrently, and one that runs late must not overwrite a
+// newer point (such as the one written on quitting).
+type resumeSaver struct {
+	mu    sync.Mutex
+	taken uint64 // sequence number of the newest point taken
+	wrote uint64 // sequence number of the newest point written
+}
+
+func (r *resumeSaver) take() uint64 {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	r.taken++
+	return r.taken
+}
+
+func (r *resumeSaver) write(seq uint64, save func() error) error {
+	r.mu.Lock()
+	defer r.mu.Unlock()
+	if seq <= r.wrote {
+		return nil
+	}
+	r.wrote = seq
+	return save()
 }
 
 // nextGuess is the event to prefetch: the next event in the campaign's
@@ -373,12 +401,19 @@ func (s *session) onSaved(msg savedMsg) tea.Cmd {
 	return nil
 }
 
-// saveNow saves the current label (SaveDraftMsg).
+// saveNow saves the current label (SaveDraftMsg). A pass the scanner has
+// not touched stays assigned rather than becoming an empty draft.
 func (s *session) saveNow() tea.Cmd {
-	if !s.hasPass || s.closing {
+	if !s.hasPass || s.closing || (s.pass.State == scan.PassAssigned && emptyLabel(s.label)) {
 		return nil
 	}
 	return s.save(s.editState(), nil)
+}
+
+// emptyLabel reports whether a label says nothing at all.
+func emptyLabel(l scan.Label) bool {
+	return l.Class == "" && len(l.Flags) == 0 && l.Confidence == "" && l.Comment == "" &&
+		len(l.Marks) == 0 && l.Vertex3D == nil && l.Verdict == ""
 }
 
 // saveOnQuit saves what is unsaved and the resume point, synchronously
