@@ -103,7 +103,7 @@ func readInfo(ctx context.Context, tx pgx.Tx, campaignID int64) (info, error) {
 // sessions from opening two passes at once; the unique (campaign, event,
 // scanner) key makes a second pass of one event by one scanner impossible.
 func (s *Store) NextPass(ctx context.Context, campaignID int64, scanner string) (scan.Pass, error) {
-	if err := checkScanner(scanner); err != nil {
+	if err := campaign.CheckScanner(scanner); err != nil {
 		return scan.Pass{}, err
 	}
 	var p scan.Pass
@@ -126,14 +126,6 @@ func (s *Store) NextPass(ctx context.Context, campaignID int64, scanner string) 
 		return p, fmt.Errorf("next pass of %q in campaign %d: %w", scanner, campaignID, err)
 	}
 	return p, nil
-}
-
-// checkScanner refuses names that could not be shown or typed.
-func checkScanner(name string) error {
-	if name == "" || len(name) > 64 || scan.CleanText(name) != name {
-		return fmt.Errorf("scanner name %q: use 1 to 64 printable characters", name)
-	}
-	return nil
 }
 
 // Pass returns one pass with its latest label.

@@ -17,7 +17,7 @@ import (
 // the campaign's seed, and returns its ID. A campaign's schema is frozen
 // here: it cannot change later.
 func (s *Store) CreateCampaign(ctx context.Context, c scan.Campaign, events []scan.CampaignEvent) (int64, error) {
-	if err := checkCampaign(c, events); err != nil {
+	if err := campaign.Check(c, events); err != nil {
 		return 0, fmt.Errorf("create campaign %q: %w", c.Name, err)
 	}
 	schema, err := json.Marshal(c.Schema)
@@ -77,55 +77,6 @@ func nonNil(s []string) []string {
 		return []string{}
 	}
 	return s
-}
-
-// checkCampaign refuses a campaign that no scanner could work on.
-func checkCampaign(c scan.Campaign, events []scan.CampaignEvent) error {
-	var errs []error
-	if c.Name == "" || scan.CleanText(c.Name) != c.Name {
-		errs = append(errs, errors.New("a campaign needs a name without control characters"))
-	}
-	if c.Mode != scan.ModeLabel && c.Mode != scan.ModeVerify {
-		errs = append(errs, fmt.Errorf("mode must be %s or %s, got %q", scan.ModeLabel, scan.ModeVerify, c.Mode))
-	}
-	if c.PerEvent < 1 {
-		errs = append(errs, fmt.Errorf("scanners per event must be 1 or more, got %d", c.PerEvent))
-	}
-	if err := c.Schema.Validate(); err != nil {
-		errs = append(errs, fmt.Errorf("schema: %w", err))
-	}
-	if len(events) == 0 {
-		errs = append(errs, errors.New("no events"))
-	}
-	seen := make(map[string]bool, len(events))
-	for _, e := range events {
-		if e.EventID == "" {
-			errs = append(errs, errors.New("an event has an empty ID"))
-		} else if seen[e.EventID] {
-			errs = append(errs, fmt.Errorf("event %s appears twice", e.EventID))
-		}
-		seen[e.EventID] = true
-		if c.Mode == scan.ModeVerify && e.Selection == nil {
-			errs = append(errs, fmt.Errorf("event %s: a verify campaign needs the selection's output for every event", e.EventID))
-		}
-		if len(errs) > 10 {
-			break
-		}
-	}
-	for _, n := range c.Scanners {
-		if err := checkScanner(n); err != nil {
-			errs = append(errs, err)
-		}
-	}
-	return errors.Join(errs...)
-}
-
-// checkScanner refuses names that could not be shown or typed.
-func checkScanner(name string) error {
-	if name == "" || len(name) > 64 || scan.CleanText(name) != name {
-		return fmt.Errorf("scanner name %q: use 1 to 64 printable characters", name)
-	}
-	return nil
 }
 
 const campaignCols = `id, name, dataset, mode, per_event, blind, adaptive, seed, schema_json, instructions, scanners, n_events, created`

@@ -18,7 +18,7 @@ import (
 // the scanner's part of the ring that still wants a pass and that the
 // scanner has not had. Events waiting for an adaptive extra pass go first.
 func (s *Store) NextPass(ctx context.Context, campaignID int64, scanner string) (scan.Pass, error) {
-	if err := checkScanner(scanner); err != nil {
+	if err := campaign.CheckScanner(scanner); err != nil {
 		return scan.Pass{}, err
 	}
 	var p scan.Pass
