@@ -279,7 +279,15 @@ func (v *planes) drawLegend() {
 	c.Fill(0, y, v.w, rows, render.Cell{Rune: ' '})
 	n := c.Text(0, y, truncRunes(label, v.w/2), nil, nil, 0)
 	w := min(v.w-n-2, 72)
-	render.Legend(c, n, y, w, v.scales[v.scaleIdx], v.rangeOf(i), v.tier, 0)
+	render.Legend(c, n, y, w, v.scales[v.scaleIdx], v.rangeOf(i), v.tier, v.legendMeV(rows))
+}
+
+// legendMeV is the calibration the legend shows, when it has the row for it.
+func (v *planes) legendMeV(rows int) float64 {
+	if rows < 3 {
+		return 0
+	}
+	return v.mevPerADC
 }
 
 func reduceShort(r render.Reduce) string {

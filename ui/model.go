@@ -45,6 +45,9 @@ type Options struct {
 	Logger   *slog.Logger
 	// Event is the event to show first (view mode); empty: the first.
 	Event string
+	// MeVPerADC is the user's energy calibration of one ADC count; when
+	// set, the colour legend also reads in MeV. 0: ADC only.
+	MeVPerADC float64
 	// Now is the clock for time-per-pass; nil: time.Now.
 	Now func() time.Time
 	// Context bounds store calls; nil: context.Background.
@@ -134,6 +137,7 @@ func New(opts Options) *Model {
 		m.now = time.Now
 	}
 	m.pv = newPlanes(opts.Tier)
+	m.pv.mevPerADC = opts.MeVPerADC
 	if m.src != nil {
 		m.ids = m.src.EventIDs()
 	}

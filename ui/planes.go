@@ -61,10 +61,13 @@ type planes struct {
 	px   int // grid pixels per cell, horizontally
 	py   int // and vertically
 
-	scales   []render.Scale
-	scaleIdx int
-	log      bool
-	reduce   render.Reduce
+	scales []render.Scale
+	// mevPerADC converts the legend's ADC to MeV with the user's
+	// calibration; 0 shows ADC only.
+	mevPerADC float64
+	scaleIdx  int
+	log       bool
+	reduce    render.Reduce
 
 	w, h int // size of the plane area in cells
 	// lastPW and lastPH are the last pane size that held an image, to
@@ -225,10 +228,13 @@ func (v *planes) layout() {
 // legendRows is the height of the colour legend under the planes: a bar
 // and its ADC labels, when the window is tall enough to spare them.
 func (v *planes) legendRows() int {
-	if v.h >= 26 && v.w >= 60 {
-		return 2
+	if v.h < 26 || v.w < 60 {
+		return 0
 	}
-	return 0
+	if v.mevPerADC > 0 && v.h >= 30 {
+		return 3 // a second label row in MeV
+	}
+	return 2
 }
 
 // paneOf returns the pane showing plane i.

@@ -35,7 +35,11 @@ func scanCommand() command {
 			dir := fs.String("dataset", "", "dataset folder (default: the folder recorded in the campaign)")
 			color := fs.String("color", "auto", "colour tier: auto, "+strings.Join(render.TierNames(), ", "))
 			keys := fs.String("keys", "", "key map file (TOML; default "+ui.DefaultKeyMapPath()+" if it exists)")
+			mev := mevFlag(fs)
 			if err := fs.Parse(args); err != nil {
+				return err
+			}
+			if err := checkMeV(*mev); err != nil {
 				return err
 			}
 			if fs.NArg() != 0 {
@@ -53,7 +57,7 @@ func scanCommand() command {
 			if name == "" {
 				name = loginName(env)
 			}
-			sc := scanConfig{db: *db, scanner: name, campaign: *campaign, dataset: *dir, tier: tier, keys: km}
+			sc := scanConfig{db: *db, scanner: name, campaign: *campaign, dataset: *dir, tier: tier, keys: km, mevPerADC: *mev}
 			if sc.db == "" {
 				if err := prepareDemo(ctx, env, &sc); err != nil {
 					return err
@@ -68,6 +72,7 @@ type scanConfig struct {
 	db, scanner, campaign, dataset string
 	tier                           render.Tier
 	keys                           ui.KeyMap
+	mevPerADC                      float64
 }
 
 // runScan opens the store, the campaign and its dataset and runs the
@@ -100,7 +105,7 @@ func runScan(ctx context.Context, sc scanConfig) error {
 		return fmt.Errorf("campaign %q: %w", camp.Name, err)
 	}
 	return runTUI(ctx, ui.Options{Dataset: ds, Store: st, CampaignID: camp.ID, Scanner: sc.scanner,
-		Role: ui.RoleScanner, Tier: sc.tier, Keys: sc.keys, Context: ctx})
+		Role: ui.RoleScanner, Tier: sc.tier, Keys: sc.keys, MeVPerADC: sc.mevPerADC, Context: ctx})
 }
 
 func onRoster(c scan.Campaign, who string) bool {

@@ -2,7 +2,9 @@ package main
 
 import (
 	"context"
+	"flag"
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -27,7 +29,11 @@ func viewCommand() command {
 			png := fs.String("png", "", "write a PNG snapshot of the view to this file instead of opening the display")
 			event := fs.String("event", "", "event ID to show first (default: the first)")
 			size := fs.String("size", "240x70", "snapshot size in cells, WIDTHxHEIGHT (with --png)")
+			mev := mevFlag(fs)
 			if err := fs.Parse(args); err != nil {
+				return err
+			}
+			if err := checkMeV(*mev); err != nil {
 				return err
 			}
 			if fs.NArg() != 1 {
@@ -41,7 +47,7 @@ func viewCommand() command {
 			if err != nil {
 				return usageError{err.Error()}
 			}
-			opts := ui.Options{Dataset: ds, Tier: tier, Event: *event, Context: ctx}
+			opts := ui.Options{Dataset: ds, Tier: tier, Event: *event, MeVPerADC: *mev, Context: ctx}
 			if *png != "" {
 				w, h, err := parseSize(*size)
 				if err != nil {
@@ -55,6 +61,18 @@ func viewCommand() command {
 			return runTUI(ctx, opts)
 		},
 	}
+}
+
+// mevFlag adds --mev-per-adc, the user's energy calibration for the legend.
+func mevFlag(fs *flag.FlagSet) *float64 {
+	return fs.Float64("mev-per-adc", 0, "energy calibration: MeV per ADC count of a sample; the colour legend then also reads in MeV (0: ADC only)")
+}
+
+func checkMeV(v float64) error {
+	if v < 0 || math.IsNaN(v) || math.IsInf(v, 0) {
+		return usageError{fmt.Sprintf("--mev-per-adc must be a finite number ≥ 0, got %g", v)}
+	}
+	return nil
 }
 
 // tierFlag resolves --color: "auto" detects the terminal's tier.
