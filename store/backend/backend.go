@@ -5,6 +5,7 @@ package backend
 import (
 	"context"
 	"fmt"
+	"net/url"
 	"strings"
 
 	"github.com/tpcscan/tpcscan/store"
@@ -33,16 +34,23 @@ func IsPostgres(dsn string) bool {
 	return strings.HasPrefix(dsn, "postgres://") || strings.HasPrefix(dsn, "postgresql://")
 }
 
-// Redact hides a password in a URL DSN, for messages.
+// Redact hides a password in a URL DSN, for messages: the one after the
+// user name and a password parameter in the query. Other DSNs (file
+// paths) are returned as they are.
 func Redact(dsn string) string {
-	scheme, rest, ok := strings.Cut(dsn, "://")
-	if !ok {
+	if !strings.Contains(dsn, "://") {
 		return dsn
 	}
-	at := strings.LastIndex(rest, "@")
-	if at < 0 {
-		return dsn
+	u, err := url.Parse(dsn)
+	if err != nil {
+		return "(unparsable URL)"
 	}
-	user, _, _ := strings.Cut(rest[:at], ":")
-	return scheme + "://" + user + ":***@" + rest[at+1:]
+	if _, has := u.User.Password(); has {
+		u.User = url.UserPassword(u.User.Username(), "***")
+	}
+	if q := u.Query(); q.Has("password") {
+		q.Set("password", "***")
+		u.RawQuery = q.Encode()
+	}
+	return strings.ReplaceAll(u.String(), "%2A%2A%2A", "***")
 }
