@@ -6,7 +6,6 @@ import (
 	"errors"
 	"math"
 	"path/filepath"
-	"reflect"
 	"slices"
 	"strings"
 	"testing"
@@ -113,37 +112,11 @@ func newTestAdjudicator(t testing.TB, st store.Store, id int64, src Source, tier
 		Now: func() time.Time { return adjClock }, Numbers: NumbersOptions{Bootstrap: 50}})
 }
 
-// adjRun executes a command and feeds its messages back into the model,
-// depth first, as the bubbletea runtime would (without concurrency).
-func adjRun(t testing.TB, a *Adjudicator, cmd tea.Cmd) {
-	t.Helper()
-	if cmd == nil {
-		return
-	}
-	switch msg := cmd().(type) {
-	case nil, tea.QuitMsg:
-	case tea.BatchMsg:
-		for _, c := range msg {
-			adjRun(t, a, c)
-		}
-	default:
-		if v := reflect.ValueOf(msg); v.Kind() == reflect.Slice && v.Type().Elem() == reflect.TypeOf(tea.Cmd(nil)) {
-			for i := range v.Len() {
-				c, _ := v.Index(i).Interface().(tea.Cmd)
-				adjRun(t, a, c)
-			}
-			return
-		}
-		_, next := a.Update(msg)
-		adjRun(t, a, next)
-	}
-}
-
 func adjKeys(t testing.TB, a *Adjudicator, names ...string) {
 	t.Helper()
 	for _, n := range names {
 		_, cmd := a.Update(keyMsg(n))
-		adjRun(t, a, cmd)
+		run(t, a, cmd)
 	}
 }
 
@@ -153,7 +126,7 @@ func startAdjudicator(t testing.TB, w, h int, tier render.Tier) (*Adjudicator, s
 	st, id, src := adjCampaign(t)
 	a := newTestAdjudicator(t, st, id, src, tier)
 	a.Update(tea.WindowSizeMsg{Width: w, Height: h})
-	adjRun(t, a, a.Init())
+	run(t, a, a.Init())
 	if !a.started || a.pv.prep == nil {
 		t.Fatalf("adjudicator did not start (err %v)", a.err)
 	}

@@ -12,7 +12,7 @@ import (
 // run executes a command and feeds its messages back into the model,
 // depth first, the way the bubbletea runtime would (without concurrency).
 // Quit commands are recorded, not obeyed.
-func run(t testing.TB, m *Model, cmd tea.Cmd) (quit bool) {
+func run(t testing.TB, m tea.Model, cmd tea.Cmd) (quit bool) {
 	t.Helper()
 	if cmd == nil {
 		return false

@@ -16,41 +16,10 @@ import (
 	"github.com/tpcscan/tpcscan/scan"
 )
 
-// runHub executes a command and feeds its messages back into the model,
-// depth first, as the bubbletea runtime would (without concurrency). It
-// reports whether the command quit the program.
-func runHub(t testing.TB, m tea.Model, cmd tea.Cmd) (quit bool) {
-	t.Helper()
-	if cmd == nil {
-		return false
-	}
-	msg := cmd()
-	switch msg := msg.(type) {
-	case nil:
-		return false
-	case tea.QuitMsg:
-		return true
-	case tea.BatchMsg:
-		for _, c := range msg {
-			quit = runHub(t, m, c) || quit
-		}
-		return quit
-	}
-	if v := reflect.ValueOf(msg); v.Kind() == reflect.Slice && v.Type().Elem() == reflect.TypeOf(tea.Cmd(nil)) {
-		for i := range v.Len() {
-			c, _ := v.Index(i).Interface().(tea.Cmd)
-			quit = runHub(t, m, c) || quit
-		}
-		return quit
-	}
-	_, next := m.Update(msg)
-	return runHub(t, m, next) || quit
-}
-
 func hubSend(t testing.TB, h *Hub, msg tea.Msg) bool {
 	t.Helper()
 	_, cmd := h.Update(msg)
-	return runHub(t, h, cmd)
+	return run(t, h, cmd)
 }
 
 func hubKeys(t testing.TB, h *Hub, names ...string) (quit bool) {
@@ -117,7 +86,7 @@ func newFakeHub() (*Hub, []*fakePage) {
 
 func TestHubRouting(t *testing.T) {
 	h, fs := newFakeHub()
-	runHub(t, h, h.Init())
+	run(t, h, h.Init())
 	if fs[0].inits != 1 || fs[1].inits != 0 {
 		t.Fatalf("inits %d %d: only the station starts at once", fs[0].inits, fs[1].inits)
 	}
@@ -172,7 +141,7 @@ func TestHubRouting(t *testing.T) {
 
 func TestHubShutdown(t *testing.T) {
 	h, fs := newFakeHub()
-	runHub(t, h, h.Init())
+	run(t, h, h.Init())
 	hubSend(t, h, tea.WindowSizeMsg{Width: 80, Height: 20})
 	hubKeys(t, h, "ctrl+g")
 	if !hubSend(t, h, ShutdownMsg{}) {
@@ -238,7 +207,7 @@ func TestHubCoordinatorPages(t *testing.T) {
 			Numbers: NumbersOptions{Bootstrap: 20}})})
 	const w, hgt = 140, 45
 	hubSend(t, h, tea.WindowSizeMsg{Width: w, Height: hgt})
-	runHub(t, h, h.Init())
+	run(t, h, h.Init())
 	screen := func() (bar, body string) {
 		t.Helper()
 		out := h.View()
@@ -287,7 +256,7 @@ func TestHubShutdownSavesDraft(t *testing.T) {
 	d := NewDashboard(DashboardOptions{Store: f.st, CampaignID: f.camp, Numbers: NumbersOptions{Bootstrap: -1}})
 	h := NewHub(HubOptions{}, HubPage{"scanning", m}, HubPage{"dashboard", d})
 	hubSend(t, h, tea.WindowSizeMsg{Width: 160, Height: 48})
-	runHub(t, h, h.Init())
+	run(t, h, h.Init())
 	if m.sess == nil || !m.sess.hasPass {
 		t.Fatalf("no pass open: err %v", m.err)
 	}
