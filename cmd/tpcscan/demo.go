@@ -40,6 +40,7 @@ func runDemo(ctx context.Context, env *environ, args []string) error {
 	mix := fs.String("mix", demoDefaultMix, "class weights `LIST`: class=weight,… (classes: numu-cc, nue-cc, nc-pi0, nc-other, cosmic)")
 	size := fs.String("size", sim.SizeDemo, "`SIZE`: demo (a 400-wire × 1200-tick crop around the interaction) or full (the whole readout, ~29 M samples and ~230 MB per event)")
 	pngDir := fs.String("png", "", "also write a PNG of every plane of every event into folder `DIR`")
+	compress := fs.Bool("compress", false, "write each event as one deflated .npz (several times smaller; slower to load)")
 	if err := fs.Parse(args); err != nil {
 		return err
 	}
@@ -50,7 +51,7 @@ func runDemo(ctx context.Context, env *environ, args []string) error {
 	if err != nil {
 		return usageError{err.Error()}
 	}
-	opt := sim.Options{Events: *events, Seed: *seed, Size: *size, Mix: m}
+	opt := sim.Options{Events: *events, Seed: *seed, Size: *size, Mix: m, Compress: *compress}
 	if err := opt.Validate(); err != nil {
 		return usageError{err.Error()}
 	}

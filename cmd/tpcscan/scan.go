@@ -131,7 +131,7 @@ func loginName(env *environ) string {
 // The demo: a deterministic generated dataset in the user's cache folder
 // and a campaign over it in a store in the user's data folder.
 const (
-	demoVersion      = "demo-v1"
+	demoVersion      = "demo-v2"
 	demoEvents       = 20
 	demoSeed         = 1
 	demoCampaignName = "demo"
@@ -203,7 +203,7 @@ func ensureDemoDataset(ctx context.Context, env *environ, dir string) error {
 	defer os.RemoveAll(tmp)
 	fmt.Fprintf(env.stderr, "tpcscan: first run: generating %d demo events into %s\n", demoEvents, dir)
 	bar := newProgress(env, "generating", demoEvents)
-	err = sim.WriteDataset(ctx, tmp, sim.Options{Events: demoEvents, Seed: demoSeed, Size: sim.SizeDemo}, func(done, total int) { bar.Step(1) })
+	err = sim.WriteDataset(ctx, tmp, sim.Options{Events: demoEvents, Seed: demoSeed, Size: sim.SizeDemo, Compress: true}, func(done, total int) { bar.Step(1) })
 	bar.Finish()
 	if err != nil {
 		return fmt.Errorf("demo: %w", err)

@@ -1,6 +1,7 @@
 package dataset
 
 import (
+	"archive/zip"
 	"bytes"
 	"encoding/json"
 	"errors"
@@ -25,6 +26,12 @@ import (
 type Writer struct {
 	dir string
 	det *detector.Detector
+
+	// Compress writes each event as one deflated .npz (planes and pixel
+	// truth as named arrays) instead of .npy files: several times smaller
+	// for mostly empty images, at the price of inflating on every load.
+	// Set it before the first Add.
+	Compress bool
 
 	mu     sync.Mutex
 	ids    map[string]bool
@@ -107,20 +114,12 @@ func (w *Writer) check(ev *scan.Event, truthJSON []byte) error {
 
 // write writes ev's files and returns its manifest entry.
 func (w *Writer) write(ev *scan.Event, truthJSON []byte) (eventEntry, error) {
-	e := eventEntry{ID: ev.ID, Run: ev.Meta.Run, Subrun: ev.Meta.Subrun, Event: ev.Meta.Event, Note: ev.Meta.Note,
-		Planes: map[string]string{}}
+	e := eventEntry{ID: ev.ID, Run: ev.Meta.Run, Subrun: ev.Meta.Subrun, Event: ev.Meta.Event, Note: ev.Meta.Note}
 	if err := os.MkdirAll(filepath.Join(w.dir, ev.ID), 0o755); err != nil {
 		return e, err
 	}
 	for i, m := range ev.Planes {
 		role := string(w.det.Planes[i].Role)
-		rel := path.Join(ev.ID, role+".npy")
-		if err := writeFile(filepath.Join(w.dir, rel), func(b io.Writer) error {
-			return writeFloat32NPY(b, m.Wires, m.Ticks, m.Pix)
-		}); err != nil {
-			return e, err
-		}
-		e.Planes[role] = rel
 		if m.Wire0 != 0 || m.Wires != w.det.Planes[i].Wires {
 			e.Wire0 = setKey(e.Wire0, role, m.Wire0)
 		}
@@ -128,21 +127,14 @@ func (w *Writer) write(ev *scan.Event, truthJSON []byte) (eventEntry, error) {
 			e.Tick0 = setKey(e.Tick0, role, m.Tick0)
 		}
 	}
-	for i, t := range ev.Truth {
-		if t == nil {
-			continue
-		}
-		role := string(w.det.Planes[i].Role)
-		rel := path.Join(ev.ID, role+"_truth.npy")
-		if err := writeFile(filepath.Join(w.dir, rel), func(b io.Writer) error {
-			return writeInt32NPY(b, t.Wires, t.Ticks, t.Pix)
-		}); err != nil {
-			return e, err
-		}
-		if e.PixelTruth == nil {
-			e.PixelTruth = map[string]string{}
-		}
-		e.PixelTruth[role] = rel
+	var err error
+	if w.Compress {
+		err = w.writeNPZ(ev, &e)
+	} else {
+		err = w.writeNPY(ev, &e)
+	}
+	if err != nil {
+		return e, err
 	}
 	if truthJSON != nil {
 		rel := path.Join(ev.ID, "truth.json")
@@ -155,6 +147,72 @@ func (w *Writer) write(ev *scan.Event, truthJSON []byte) (eventEntry, error) {
 		e.Truth = rel
 	}
 	return e, nil
+}
+
+// writeNPZ writes every plane and its pixel truth into one deflated .npz,
+// arrays named by plane role (and role_truth), as numpy.savez_compressed.
+func (w *Writer) writeNPZ(ev *scan.Event, e *eventEntry) error {
+	rel := path.Join(ev.ID, "planes.npz")
+	err := writeFile(filepath.Join(w.dir, rel), func(b io.Writer) error {
+		z := zip.NewWriter(b)
+		member := func(name string, fill func(io.Writer) error) error {
+			f, err := z.CreateHeader(&zip.FileHeader{Name: name + ".npy", Method: zip.Deflate})
+			if err != nil {
+				return err
+			}
+			return fill(f)
+		}
+		for i, m := range ev.Planes {
+			role := string(w.det.Planes[i].Role)
+			if err := member(role, func(f io.Writer) error { return writeFloat32NPY(f, m.Wires, m.Ticks, m.Pix) }); err != nil {
+				return err
+			}
+		}
+		for i, t := range ev.Truth {
+			if t == nil {
+				continue
+			}
+			role := string(w.det.Planes[i].Role)
+			if err := member(role+"_truth", func(f io.Writer) error { return writeInt32NPY(f, t.Wires, t.Ticks, t.Pix) }); err != nil {
+				return err
+			}
+		}
+		return z.Close()
+	})
+	e.NPZ = rel
+	return err
+}
+
+// writeNPY writes a .npy per plane, and one per plane of pixel truth.
+func (w *Writer) writeNPY(ev *scan.Event, e *eventEntry) error {
+	e.Planes = map[string]string{}
+	for i, m := range ev.Planes {
+		role := string(w.det.Planes[i].Role)
+		rel := path.Join(ev.ID, role+".npy")
+		if err := writeFile(filepath.Join(w.dir, rel), func(b io.Writer) error {
+			return writeFloat32NPY(b, m.Wires, m.Ticks, m.Pix)
+		}); err != nil {
+			return err
+		}
+		e.Planes[role] = rel
+	}
+	for i, t := range ev.Truth {
+		if t == nil {
+			continue
+		}
+		role := string(w.det.Planes[i].Role)
+		rel := path.Join(ev.ID, role+"_truth.npy")
+		if err := writeFile(filepath.Join(w.dir, rel), func(b io.Writer) error {
+			return writeInt32NPY(b, t.Wires, t.Ticks, t.Pix)
+		}); err != nil {
+			return err
+		}
+		if e.PixelTruth == nil {
+			e.PixelTruth = map[string]string{}
+		}
+		e.PixelTruth[role] = rel
+	}
+	return nil
 }
 
 func setKey(m map[string]int, k string, v int) map[string]int {

@@ -31,6 +31,9 @@ type Options struct {
 	Seed   int64
 	Size   string             // SizeDemo (default) or SizeFull
 	Mix    map[string]float64 // class → relative weight; nil means DefaultMix
+	// Compress writes each event as one deflated .npz instead of .npy
+	// files (see dataset.Writer.Compress): several times smaller on disk.
+	Compress bool
 }
 
 // DefaultMix is the class mix of the demo dataset.

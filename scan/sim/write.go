@@ -31,6 +31,7 @@ func WriteDataset(ctx context.Context, dir string, opt Options, progress func(do
 	if err != nil {
 		return err
 	}
+	w.Compress = opt.Compress
 	ctx, cancel := context.WithCancel(ctx)
 	var wg sync.WaitGroup
 	defer func() { // stop the feeder and the workers, then wait for them
