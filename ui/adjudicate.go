@@ -49,6 +49,9 @@ type AdjudicateOptions struct {
 	Logger  *slog.Logger
 	Now     func() time.Time // clock of the decisions; nil: time.Now
 	Context context.Context  // bounds store calls; nil: context.Background
+	// QuitHelp, if set, is what the help says the quit keys do (inside the
+	// coordinator hub they return to the station rather than quit).
+	QuitHelp string
 }
 
 // AdjudicateKeyMap are the adjudicator's own keys. Schema class hotkeys
@@ -334,6 +337,9 @@ func NewAdjudicator(opts AdjudicateOptions) *Adjudicator {
 	}
 	if a.now == nil {
 		a.now = time.Now
+	}
+	if opts.QuitHelp != "" {
+		a.keys.Quit.SetHelp(a.keys.Quit.Help().Key, opts.QuitHelp)
 	}
 	a.pv = newPlanes(opts.Tier)
 	a.numbers = numbersPane{st: &a.st}

@@ -565,6 +565,8 @@ type DashboardOptions struct {
 	// Renderer is this session's lipgloss renderer; nil writes nowhere.
 	Renderer *lipgloss.Renderer
 	Context  context.Context
+	// QuitHelp, if set, is what the help says the quit keys do.
+	QuitHelp string
 }
 
 // DashboardKeyMap are the panel's keys.
@@ -614,6 +616,9 @@ func NewDashboard(opts DashboardOptions) *Dashboard {
 	d.st = NewStyles(r, opts.Tier)
 	d.help.Styles = d.st.Help
 	d.pane = numbersPane{st: &d.st, loading: true}
+	if opts.QuitHelp != "" {
+		d.keys.Quit.SetHelp(d.keys.Quit.Help().Key, opts.QuitHelp)
+	}
 	return d
 }
 

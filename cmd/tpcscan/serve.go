@@ -272,9 +272,11 @@ func coordinatorHub(ctx context.Context, station tea.Model, st store.Store, src 
 	adj := ui.NewAdjudicator(ui.AdjudicateOptions{
 		Store: st, CampaignID: campaignID, Source: src, Coordinator: s.Scanner,
 		Tier: s.Tier, Renderer: s.Renderer, Keys: ui.DefaultKeyMap(), Logger: s.Logger, Context: ctx,
+		QuitHelp: "back to scanning",
 	})
 	dash := ui.NewDashboard(ui.DashboardOptions{
 		Store: st, CampaignID: campaignID, Tier: s.Tier, Renderer: s.Renderer, Context: ctx,
+		QuitHelp: "back to scanning",
 	})
 	return ui.NewHub(ui.HubOptions{Tier: s.Tier, Renderer: s.Renderer},
 		ui.HubPage{Name: "scanning", Model: station},
@@ -308,9 +310,5 @@ func (p planesOnly) EventIDs() []string {
 func (p planesOnly) Load(id string) (*scan.Event, error) {
 	p.slots <- struct{}{}
 	defer func() { <-p.slots }()
-	ev, err := p.ds.Load(id)
-	if ev != nil {
-		ev.Truth = nil
-	}
-	return ev, err
+	return p.ds.LoadPlanes(id)
 }
