@@ -105,7 +105,8 @@ CREATE TABLE resume (
 -- else the next event on the shuffled ring from the scanner's offset that
 -- still wants a pass and that the scanner has not had (events waiting for
 -- an extra pass first), taken with FOR UPDATE SKIP LOCKED so that
--- concurrent servers never wait on each other nor take the same slot. The
+-- concurrent servers seldom wait on each other and never take the same
+-- slot; only when every event left is locked does it wait for one. The
 -- advisory lock keeps one scanner's two sessions from opening two passes.
 -- Each statement here sees what committed before it (READ COMMITTED), so
 -- the open-pass check after the lock sees the other session's pass. No
@@ -120,40 +121,63 @@ DECLARE
 	v_event text;
 	v_taken integer;
 	v_extra integer;
+	v_try   integer;
 BEGIN
 	PERFORM pg_advisory_xact_lock(p_campaign::integer, hashtext(p_scanner));
 	SELECT p.id INTO v_id FROM passes p
 		WHERE p.campaign_id = p_campaign AND p.scanner = p_scanner AND p.state IN ('assigned', 'draft')
 		ORDER BY p.id LIMIT 1;
 	IF v_id IS NULL THEN
-		UPDATE events u SET taken = u.taken + 1
-			FROM (SELECT e.event_id FROM events e
-				WHERE e.campaign_id = p_campaign AND e.taken < e.needed AND e.extra_round > 1
+		-- A free event may be locked for a moment by another server's
+		-- assignment in flight, and SKIP LOCKED passes over it. Rather than
+		-- report no work while such an event may still want this scanner,
+		-- wait for one of them and look again (a few times at most).
+		FOR v_try IN 1..8 LOOP
+			UPDATE events u SET taken = u.taken + 1
+				FROM (SELECT e.event_id FROM events e
+					WHERE e.campaign_id = p_campaign AND e.taken < e.needed AND e.extra_round > 1
+					AND NOT EXISTS (SELECT 1 FROM passes p
+						WHERE p.campaign_id = p_campaign AND p.event_id = e.event_id AND p.scanner = p_scanner)
+					ORDER BY e.pos LIMIT 1 FOR UPDATE SKIP LOCKED) n
+				WHERE u.campaign_id = p_campaign AND u.event_id = n.event_id
+				RETURNING u.event_id, u.taken - 1, u.extra_round INTO v_event, v_taken, v_extra;
+			IF v_event IS NULL THEN
+				UPDATE events u SET taken = u.taken + 1
+					FROM (SELECT e.event_id FROM events e
+						WHERE e.campaign_id = p_campaign AND e.taken < e.needed AND e.pos >= p_start
+						AND NOT EXISTS (SELECT 1 FROM passes p
+							WHERE p.campaign_id = p_campaign AND p.event_id = e.event_id AND p.scanner = p_scanner)
+						ORDER BY e.pos LIMIT 1 FOR UPDATE SKIP LOCKED) n
+					WHERE u.campaign_id = p_campaign AND u.event_id = n.event_id
+					RETURNING u.event_id, u.taken - 1, u.extra_round INTO v_event, v_taken, v_extra;
+			END IF;
+			IF v_event IS NULL THEN
+				UPDATE events u SET taken = u.taken + 1
+					FROM (SELECT e.event_id FROM events e
+						WHERE e.campaign_id = p_campaign AND e.taken < e.needed AND e.pos < p_start
+						AND NOT EXISTS (SELECT 1 FROM passes p
+							WHERE p.campaign_id = p_campaign AND p.event_id = e.event_id AND p.scanner = p_scanner)
+						ORDER BY e.pos LIMIT 1 FOR UPDATE SKIP LOCKED) n
+					WHERE u.campaign_id = p_campaign AND u.event_id = n.event_id
+					RETURNING u.event_id, u.taken - 1, u.extra_round INTO v_event, v_taken, v_extra;
+			END IF;
+			EXIT WHEN v_event IS NOT NULL;
+			-- Nothing free and unlocked. None left at all means no work;
+			-- otherwise wait on the first one (locked by another assignment
+			-- in flight) and look again.
+			PERFORM 1 FROM events e
+				WHERE e.campaign_id = p_campaign AND e.taken < e.needed
+				AND NOT EXISTS (SELECT 1 FROM passes p
+					WHERE p.campaign_id = p_campaign AND p.event_id = e.event_id AND p.scanner = p_scanner);
+			IF NOT FOUND THEN
+				RETURN;
+			END IF;
+			PERFORM 1 FROM events e
+				WHERE e.campaign_id = p_campaign AND e.taken < e.needed
 				AND NOT EXISTS (SELECT 1 FROM passes p
 					WHERE p.campaign_id = p_campaign AND p.event_id = e.event_id AND p.scanner = p_scanner)
-				ORDER BY e.pos LIMIT 1 FOR UPDATE SKIP LOCKED) n
-			WHERE u.campaign_id = p_campaign AND u.event_id = n.event_id
-			RETURNING u.event_id, u.taken - 1, u.extra_round INTO v_event, v_taken, v_extra;
-		IF v_event IS NULL THEN
-			UPDATE events u SET taken = u.taken + 1
-				FROM (SELECT e.event_id FROM events e
-					WHERE e.campaign_id = p_campaign AND e.taken < e.needed AND e.pos >= p_start
-					AND NOT EXISTS (SELECT 1 FROM passes p
-						WHERE p.campaign_id = p_campaign AND p.event_id = e.event_id AND p.scanner = p_scanner)
-					ORDER BY e.pos LIMIT 1 FOR UPDATE SKIP LOCKED) n
-				WHERE u.campaign_id = p_campaign AND u.event_id = n.event_id
-				RETURNING u.event_id, u.taken - 1, u.extra_round INTO v_event, v_taken, v_extra;
-		END IF;
-		IF v_event IS NULL THEN
-			UPDATE events u SET taken = u.taken + 1
-				FROM (SELECT e.event_id FROM events e
-					WHERE e.campaign_id = p_campaign AND e.taken < e.needed AND e.pos < p_start
-					AND NOT EXISTS (SELECT 1 FROM passes p
-						WHERE p.campaign_id = p_campaign AND p.event_id = e.event_id AND p.scanner = p_scanner)
-					ORDER BY e.pos LIMIT 1 FOR UPDATE SKIP LOCKED) n
-				WHERE u.campaign_id = p_campaign AND u.event_id = n.event_id
-				RETURNING u.event_id, u.taken - 1, u.extra_round INTO v_event, v_taken, v_extra;
-		END IF;
+				ORDER BY e.pos LIMIT 1 FOR UPDATE;
+		END LOOP;
 		IF v_event IS NULL THEN
 			RETURN;
 		END IF;
