@@ -56,3 +56,17 @@ func CheckScanner(name string) error {
 	}
 	return nil
 }
+
+// CheckRevision refuses a revision no store may append: a state other than
+// draft, submitted or skipped, or a negative or NaN time spent.
+func CheckRevision(rev scan.Revision) error {
+	switch rev.State {
+	case scan.PassDraft, scan.PassSubmitted, scan.PassSkipped:
+	default:
+		return fmt.Errorf("a revision's state must be draft, submitted or skipped, got %q", rev.State)
+	}
+	if rev.Seconds < 0 || rev.Seconds != rev.Seconds {
+		return fmt.Errorf("time spent must be zero or more, got %g", rev.Seconds)
+	}
+	return nil
+}

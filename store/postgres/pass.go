@@ -193,13 +193,8 @@ func (s *Store) ScannerPasses(ctx context.Context, campaignID int64, scanner str
 // under a lock on the event row so that two last submissions racing each
 // other both count.
 func (s *Store) SaveRevision(ctx context.Context, passID int64, scanner string, rev scan.Revision) (scan.Revision, error) {
-	switch rev.State {
-	case scan.PassDraft, scan.PassSubmitted, scan.PassSkipped:
-	default:
-		return rev, fmt.Errorf("save revision of pass %d: state %q, want draft, submitted or skipped", passID, rev.State)
-	}
-	if rev.Seconds < 0 || rev.Seconds != rev.Seconds {
-		return rev, fmt.Errorf("save revision of pass %d: time spent must be zero or more, got %g", passID, rev.Seconds)
+	if err := campaign.CheckRevision(rev); err != nil {
+		return rev, fmt.Errorf("save revision of pass %d: %w", passID, err)
 	}
 	label, err := json.Marshal(rev.Label)
 	if err != nil {

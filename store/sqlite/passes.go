@@ -219,13 +219,8 @@ func (s *Store) passes(ctx context.Context, campaignID int64, q string, args ...
 // replacement pass, and in an adaptive campaign the submission that
 // completes K disagreeing passes asks for one more.
 func (s *Store) SaveRevision(ctx context.Context, passID int64, scanner string, rev scan.Revision) (scan.Revision, error) {
-	switch rev.State {
-	case scan.PassDraft, scan.PassSubmitted, scan.PassSkipped:
-	default:
-		return rev, fmt.Errorf("save pass %d: a revision's state must be draft, submitted or skipped, got %q", passID, rev.State)
-	}
-	if rev.Seconds < 0 || rev.Seconds != rev.Seconds {
-		return rev, fmt.Errorf("save pass %d: time spent must be zero or more, got %g", passID, rev.Seconds)
+	if err := campaign.CheckRevision(rev); err != nil {
+		return rev, fmt.Errorf("save pass %d: %w", passID, err)
 	}
 	label, err := json.Marshal(rev.Label)
 	if err != nil {
