@@ -830,36 +830,15 @@ func (a *Adjudicator) classHotkey(s string) (scan.Choice, bool) {
 // displayKey handles the zoom, pan, plane and scale keys of the station.
 func (a *Adjudicator) displayKey(msg tea.KeyMsg) {
 	v, k := a.pv, a.disp
-	if v.prep == nil {
+	if v.prep == nil || v.viewKey(msg, k) {
 		return
 	}
-	cols, rows := v.panStep()
 	switch {
-	case key.Matches(msg, k.ZoomIn):
-		v.zoom(1 / zoomStep)
-	case key.Matches(msg, k.ZoomOut):
-		v.zoom(zoomStep)
 	case key.Matches(msg, k.Fit):
 		v.fit()
 		v.clampCursor()
-	case key.Matches(msg, k.PanLeft):
-		v.pan(-cols, 0)
-	case key.Matches(msg, k.PanRight):
-		v.pan(cols, 0)
-	case key.Matches(msg, k.PanEarlier):
-		v.pan(0, -rows)
-	case key.Matches(msg, k.PanLater):
-		v.pan(0, rows)
-	case key.Matches(msg, k.NextPlane):
-		v.setFocus((v.cur.Plane + 1) % len(v.det.Planes))
-	case key.Matches(msg, k.PrevPlane):
-		v.setFocus((v.cur.Plane + len(v.det.Planes) - 1) % len(v.det.Planes))
-	case key.Matches(msg, k.Enlarge):
-		v.toggleOne()
 	case key.Matches(msg, k.NextScale):
 		v.scaleIdx = (v.scaleIdx + 1) % len(v.scales)
-	case key.Matches(msg, k.LogScale):
-		v.log = !v.log
 	}
 }
 

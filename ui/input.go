@@ -175,7 +175,6 @@ func (m *Model) displayKey(msg tea.KeyMsg) tea.Cmd {
 		}
 		return nil
 	}
-	pc, pr := v.panStep()
 	switch {
 	case key.Matches(msg, k.Left):
 		v.moveCursor(-1, 0)
@@ -193,18 +192,7 @@ func (m *Model) displayKey(msg tea.KeyMsg) tea.Cmd {
 		v.moveCursor(0, -fastCells)
 	case key.Matches(msg, k.FastDown):
 		v.moveCursor(0, fastCells)
-	case key.Matches(msg, k.PanLeft):
-		v.pan(-pc, 0)
-	case key.Matches(msg, k.PanRight):
-		v.pan(pc, 0)
-	case key.Matches(msg, k.PanEarlier):
-		v.pan(0, -pr)
-	case key.Matches(msg, k.PanLater):
-		v.pan(0, pr)
-	case key.Matches(msg, k.ZoomIn):
-		v.zoom(1 / zoomStep)
-	case key.Matches(msg, k.ZoomOut):
-		v.zoom(zoomStep)
+	case v.viewKey(msg, k):
 	case key.Matches(msg, k.ZoomBox):
 		if v.boxStart == nil {
 			c := v.cur
@@ -216,12 +204,6 @@ func (m *Model) displayKey(msg tea.KeyMsg) tea.Cmd {
 	case key.Matches(msg, k.Fit):
 		v.fit()
 		v.boxStart = nil
-	case key.Matches(msg, k.NextPlane):
-		v.setFocus((v.cur.Plane + 1) % len(v.det.Planes))
-	case key.Matches(msg, k.PrevPlane):
-		v.setFocus((v.cur.Plane + len(v.det.Planes) - 1) % len(v.det.Planes))
-	case key.Matches(msg, k.Enlarge):
-		v.toggleOne()
 	case key.Matches(msg, k.Ruler):
 		v.addRulerPoint()
 	case key.Matches(msg, k.Reduction):
@@ -231,8 +213,6 @@ func (m *Model) displayKey(msg tea.KeyMsg) tea.Cmd {
 			v.reduce = render.ReduceMax
 		}
 		m.status = "block reduction: " + reduceName(v.reduce)
-	case key.Matches(msg, k.LogScale):
-		v.log = !v.log
 	case key.Matches(msg, k.NextScale):
 		v.scaleIdx = (v.scaleIdx + 1) % len(v.scales)
 		m.status = "colour scale: " + v.scales[v.scaleIdx].Name
@@ -244,6 +224,37 @@ func (m *Model) displayKey(msg tea.KeyMsg) tea.Cmd {
 		v.boxStart = nil
 	}
 	return nil
+}
+
+// viewKey applies the zoom, pan, plane and log-scale keys that every
+// model showing planes shares, and reports whether msg was one of them.
+func (v *planes) viewKey(msg tea.KeyMsg, k KeyMap) bool {
+	cols, rows := v.panStep()
+	switch {
+	case key.Matches(msg, k.ZoomIn):
+		v.zoom(1 / zoomStep)
+	case key.Matches(msg, k.ZoomOut):
+		v.zoom(zoomStep)
+	case key.Matches(msg, k.PanLeft):
+		v.pan(-cols, 0)
+	case key.Matches(msg, k.PanRight):
+		v.pan(cols, 0)
+	case key.Matches(msg, k.PanEarlier):
+		v.pan(0, -rows)
+	case key.Matches(msg, k.PanLater):
+		v.pan(0, rows)
+	case key.Matches(msg, k.NextPlane):
+		v.setFocus((v.cur.Plane + 1) % len(v.det.Planes))
+	case key.Matches(msg, k.PrevPlane):
+		v.setFocus((v.cur.Plane + len(v.det.Planes) - 1) % len(v.det.Planes))
+	case key.Matches(msg, k.Enlarge):
+		v.toggleOne()
+	case key.Matches(msg, k.LogScale):
+		v.log = !v.log
+	default:
+		return false
+	}
+	return true
 }
 
 func reduceName(r render.Reduce) string {
