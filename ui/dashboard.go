@@ -8,6 +8,7 @@ import (
 	"io"
 	"math"
 	"slices"
+	"strconv"
 	"strings"
 
 	"github.com/charmbracelet/bubbles/help"
@@ -405,13 +406,13 @@ func (p *numbersPane) lines(w int) []string {
 			}
 			return interval(c(n.CIs))
 		}
-		add("  %-24s %6s %s", "percent agreement", num3(a.PercentAgreement), ci(func(c *agree.AgreementCIs) agree.CI { return c.PercentAgreement }))
-		add("  %-24s %6s %s", "Fleiss' κ", num3(a.Fleiss), ci(func(c *agree.AgreementCIs) agree.CI { return c.Fleiss }))
-		add("  %-24s %6s %s", "Krippendorff's α", num3(a.Alpha), ci(func(c *agree.AgreementCIs) agree.CI { return c.Alpha }))
+		add("  %-24s %6s %s", "percent agreement", num(a.PercentAgreement, 3), ci(func(c *agree.AgreementCIs) agree.CI { return c.PercentAgreement }))
+		add("  %-24s %6s %s", "Fleiss' κ", num(a.Fleiss, 3), ci(func(c *agree.AgreementCIs) agree.CI { return c.Fleiss }))
+		add("  %-24s %6s %s", "Krippendorff's α", num(a.Alpha, 3), ci(func(c *agree.AgreementCIs) agree.CI { return c.Alpha }))
 		var per []string
 		for i, c := range a.Categories {
 			if i < len(a.PerCategory) {
-				per = append(per, fmt.Sprintf("%s %s", scan.CleanText(c), num2(a.PerCategory[i])))
+				per = append(per, fmt.Sprintf("%s %s", scan.CleanText(c), num(a.PerCategory[i], 2)))
 			}
 		}
 		if len(per) > 0 {
@@ -425,7 +426,7 @@ func (p *numbersPane) lines(w int) []string {
 			if n.CIs != nil && i < len(n.CIs.Kappa) {
 				civ = interval(n.CIs.Kappa[i])
 			}
-			add("  %-24s %6d %6s %7s  %s", trunc(scan.CleanText(pr.A)+" – "+scan.CleanText(pr.B), 24), pr.Items, num3(pr.PercentAgreement), num3(pr.Kappa), civ)
+			add("  %-24s %6d %6s %7s  %s", trunc(scan.CleanText(pr.A)+" – "+scan.CleanText(pr.B), 24), pr.Items, num(pr.PercentAgreement, 3), num(pr.Kappa, 3), civ)
 		}
 		add("  %s", st.Dim.Render(kappaCaution))
 	} else {
@@ -439,7 +440,7 @@ func (p *numbersPane) lines(w int) []string {
 		add("  %-24s %4s %4s %4s %13s  %-23s %-23s %s", "pair A – B", "n₁", "n₂", "m", "Chapman N", "A's efficiency m/n₂", "B's efficiency m/n₁", "combined")
 		for _, r := range n.Efficiency {
 			add("  %-24s %4d %4d %4d %13s  %-23s %-23s %s", trunc(scan.CleanText(r.A)+" – "+scan.CleanText(r.B), 24), r.N1, r.N2, r.M,
-				num1(r.Chapman)+" ± "+num1(r.ChapmanSE), propText(r.EffA), propText(r.EffB), num3(r.Combined))
+				num(r.Chapman, 1)+" ± "+num(r.ChapmanSE, 1), propText(r.EffA), propText(r.EffB), num(r.Combined, 3))
 		}
 		add("  %s", st.Dim.Render("assumes independent misses: the same hard events missed by both bias N low."))
 	}
@@ -493,25 +494,13 @@ func trunc(s string, n int) string {
 	return s
 }
 
-func num3(v float64) string {
+// num formats a statistic to the given decimals, or "undef" when the
+// statistic is undefined on these data.
+func num(v float64, decimals int) string {
 	if math.IsNaN(v) || math.IsInf(v, 0) {
 		return "undef"
 	}
-	return fmt.Sprintf("%.3f", v)
-}
-
-func num2(v float64) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return "undef"
-	}
-	return fmt.Sprintf("%.2f", v)
-}
-
-func num1(v float64) string {
-	if math.IsNaN(v) || math.IsInf(v, 0) {
-		return "undef"
-	}
-	return fmt.Sprintf("%.1f", v)
+	return strconv.FormatFloat(v, 'f', decimals, 64)
 }
 
 func interval(c agree.CI) string {
